@@ -1,0 +1,37 @@
+#pragma once
+// The first editor: the chain's response curve over a plain list of every parameter.
+#include "ResponseView.h"
+
+#include <juce_audio_processors/juce_audio_processors.h>
+
+namespace kerf
+{
+
+class KerfProcessor;
+
+/// Plain, honest editor: the curve is the chain's exact H(z), the controls are the
+/// parameters themselves. The full editor replaces it later.
+class KerfEditor : public juce::AudioProcessorEditor, private juce::Timer
+{
+public:
+    explicit KerfEditor(KerfProcessor& processor);
+    ~KerfEditor() override;
+
+    void paint(juce::Graphics& g) override;
+    void resized() override;
+
+    /// Pulls the current chain into the response view now (the timer does it 30 times a second).
+    void refreshResponse();
+    ResponseView& responseView() noexcept { return response; }
+
+private:
+    void timerCallback() override;
+
+    KerfProcessor& kerfProcessor;
+    ResponseView response;
+    juce::GenericAudioProcessorEditor controls;
+    juce::Label protectionLabel;
+    int protectionHoldFrames = 0;
+};
+
+} // namespace kerf

@@ -1,0 +1,321 @@
+// `kerf render IN OUT --chain FILE [--bits 32|24|16]`
+#include "ChainFile.h"
+#include "Commands.h"
+
+#include <juce_audio_formats/juce_audio_formats.h>
+
+#include <atomic>
+#include <cmath>
+#include <csignal>
+#include <iostream>
+#include <random>
+#include <sys/stat.h>
+
+namespace kerf::cli
+{
+
+const char* const kRenderHelp =
+    R"(Usage: kerf render IN OUT --chain FILE [--bits 32|24|16]
+
+Processes IN (WAV, AIFF or FLAC) through the chain in FILE with the same DSP code as the
+plugin and writes OUT as WAV with IN's sample rate, channel count and length.
+
+Options:
+  --chain FILE   chain file (JSON, "format": "kerf-chain"), required
+  --bits N       32 (default): 32-bit float, keeps values above full scale;
+                 24 or 16: PCM with TPDF dither; clipped samples are counted and reported
+
+OUT is written to a temporary file in OUT's folder and renamed when complete, so a failure
+or Ctrl-C never leaves a partial file. kerf refuses to write over IN.
+)";
+
+namespace
+{
+
+std::atomic<bool> interrupted{false};
+
+extern "C" void onSignal(int)
+{
+    interrupted.store(true);
+}
+
+/// Wraps a file stream and remembers whether a read came up short: a WAV or AIFF whose
+/// header promises more audio than the file holds (a truncated file) shows up this way.
+class ShortReadDetector : public juce::InputStream
+{
+public:
+    explicit ShortReadDetector(std::unique_ptr<juce::InputStream> s) : inner(std::move(s)) {}
+    juce::int64 getTotalLength() override { return inner->getTotalLength(); }
+    bool isExhausted() override { return inner->isExhausted(); }
+    int read(void* dest, int n) override
+    {
+        const int got = inner->read(dest, n);
+        if (armed && got < n)
+            shortRead = true;
+        return got;
+    }
+    juce::int64 getPosition() override { return inner->getPosition(); }
+    bool setPosition(juce::int64 p) override { return inner->setPosition(p); }
+
+    bool armed = false;
+    bool shortRead = false;
+
+private:
+    std::unique_ptr<juce::InputStream> inner;
+};
+
+bool sameFile(const juce::File& a, const juce::File& b)
+{
+    struct stat sa
+    {
+    }, sb{};
+    if (::stat(a.getFullPathName().toRawUTF8(), &sa) == 0 &&
+        ::stat(b.getFullPathName().toRawUTF8(), &sb) == 0)
+        return sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
+    return a.getLinkedTarget() == b.getLinkedTarget();
+}
+
+/// Deletes the temporary output unless released.
+struct TempFileGuard
+{
+    juce::File file;
+    bool keep = false;
+    ~TempFileGuard()
+    {
+        if (!keep && file.existsAsFile())
+            file.deleteFile();
+    }
+};
+
+} // namespace
+
+int runRender(Args args)
+{
+    const auto chainPath = args.option("--chain");
+    const auto bitsText = args.option("--bits");
+    if (args.missingValue)
+    {
+        printError("option " + args.missingName + " needs a value (see kerf render --help)");
+        return kExitUsage;
+    }
+    if (auto unknown = args.unknownOption(); unknown.isNotEmpty())
+    {
+        printError("render: unknown option " + unknown + " (see kerf render --help)");
+        return kExitUsage;
+    }
+    const auto pos = args.positionals();
+    if (pos.size() != 2 || chainPath.isEmpty())
+    {
+        printError("render needs IN, OUT and --chain FILE (see kerf render --help)");
+        return kExitUsage;
+    }
+    int bits = 32;
+    if (bitsText.isNotEmpty())
+    {
+        bits = bitsText.getIntValue();
+        if (bitsText != juce::String(bits) || (bits != 32 && bits != 24 && bits != 16))
+        {
+            printError("--bits must be 32, 24 or 16, not '" + bitsText + "'");
+            return kExitUsage;
+        }
+    }
+
+    const auto cwd = juce::File::getCurrentWorkingDirectory();
+    const juce::File inFile = cwd.getChildFile(pos[0]);
+    const juce::File outFile = cwd.getChildFile(pos[1]);
+
+    if (inFile.isDirectory())
+    {
+        printError("input " + inFile.getFullPathName() + " is a directory, not an audio file");
+        return kExitFailure;
+    }
+    if (!inFile.existsAsFile())
+    {
+        printError("input " + inFile.getFullPathName() + " does not exist");
+        return kExitFailure;
+    }
+    if (outFile == inFile || (outFile.exists() && sameFile(inFile, outFile)))
+    {
+        printError("output " + outFile.getFullPathName() +
+                   " is the input file; kerf never writes over its input");
+        return kExitFailure;
+    }
+    if (outFile.isDirectory())
+    {
+        printError("output " + outFile.getFullPathName() + " is a directory");
+        return kExitFailure;
+    }
+    if (!outFile.getParentDirectory().isDirectory())
+    {
+        printError("output folder " + outFile.getParentDirectory().getFullPathName() +
+                   " does not exist");
+        return kExitFailure;
+    }
+
+    const auto chainResult = readChainFile(cwd.getChildFile(chainPath));
+    if (!chainResult.ok)
+    {
+        printError(chainResult.error);
+        return kExitFailure;
+    }
+
+    juce::AudioFormatManager formats;
+    formats.registerBasicFormats();
+    auto fileStream = std::make_unique<juce::FileInputStream>(inFile);
+    if (!fileStream->openedOk())
+    {
+        printError("cannot open input " + inFile.getFullPathName() + ": " +
+                   fileStream->getStatus().getErrorMessage());
+        return kExitFailure;
+    }
+    auto* detector = new ShortReadDetector(std::move(fileStream));
+    std::unique_ptr<juce::AudioFormatReader> reader(
+        formats.createReaderFor(std::unique_ptr<juce::InputStream>(detector)));
+    if (reader == nullptr)
+    {
+        printError("input " + inFile.getFullPathName() +
+                   " is not a readable WAV, AIFF or FLAC file (unsupported or damaged)");
+        return kExitFailure;
+    }
+    const juce::String formatName = reader->getFormatName();
+    detector->armed = formatName.containsIgnoreCase("WAV") || formatName.containsIgnoreCase("AIFF");
+
+    const double rate = reader->sampleRate;
+    const int numChannels = static_cast<int>(reader->numChannels);
+    const juce::int64 length = reader->lengthInSamples;
+    if (rate <= 0 || numChannels <= 0 || length < 0)
+    {
+        printError("input " + inFile.getFullPathName() + " has no usable audio (rate " +
+                   juce::String(rate) + ", channels " + juce::String(numChannels) + ")");
+        return kExitFailure;
+    }
+    if (numChannels > dsp::ChainProcessor::kMaxChannels)
+    {
+        printError("input has " + juce::String(numChannels) + " channels; at most " +
+                   juce::String(dsp::ChainProcessor::kMaxChannels) + " are supported");
+        return kExitFailure;
+    }
+
+    TempFileGuard temp;
+    temp.file = outFile.getParentDirectory().getChildFile(
+        "." + outFile.getFileName() + ".kerf-" +
+        juce::String::toHexString(juce::Random().nextInt()) + ".tmp");
+    std::signal(SIGINT, onSignal);
+    std::signal(SIGTERM, onSignal);
+
+    std::unique_ptr<juce::AudioFormatWriter> writer;
+    {
+        auto out = std::make_unique<juce::FileOutputStream>(temp.file);
+        if (!out->openedOk())
+        {
+            printError("cannot write in " + outFile.getParentDirectory().getFullPathName() + ": " +
+                       out->getStatus().getErrorMessage());
+            return kExitFailure;
+        }
+        juce::WavAudioFormat wav;
+        writer.reset(wav.createWriterFor(out.get(), rate, static_cast<unsigned int>(numChannels),
+                                         bits, {}, 0));
+        if (writer == nullptr)
+        {
+            printError("cannot create a " + juce::String(bits) + "-bit WAV writer at " +
+                       juce::String(rate) + " Hz");
+            return kExitFailure;
+        }
+        out.release(); // the writer owns the stream now
+    }
+
+    dsp::ChainProcessor chain;
+    constexpr int kBlock = 4096;
+    chain.prepare(rate, kBlock, numChannels);
+    chain.setChain(chainResult.chain);
+
+    juce::AudioBuffer<float> buffer(numChannels, kBlock);
+    std::mt19937 rng(0x6b657266u); // fixed: the same input renders to the same bits
+    std::uniform_real_distribution<double> uniform(-0.5, 0.5);
+    const double scale = bits == 32 ? 1.0 : std::ldexp(1.0, bits - 1);
+    const double maxCode = scale - 1.0;
+    juce::int64 clipped = 0;
+    float peak = 0.0f;
+
+    const bool showProgress = length > static_cast<juce::int64>(5.0 * rate);
+    int lastPercent = -1;
+    for (juce::int64 done = 0; done < length;)
+    {
+        if (interrupted.load())
+        {
+            printError("interrupted; no output written");
+            return 130;
+        }
+        const int n = static_cast<int>(std::min<juce::int64>(kBlock, length - done));
+        if (!reader->read(&buffer, 0, n, done, true, true) || detector->shortRead)
+        {
+            printError("input " + inFile.getFullPathName() +
+                       " is truncated or damaged: it ends before the length its header states");
+            return kExitFailure;
+        }
+        chain.process(buffer.getArrayOfWritePointers(), numChannels, n);
+        for (int ch = 0; ch < numChannels; ++ch)
+        {
+            float* x = buffer.getWritePointer(ch);
+            for (int i = 0; i < n; ++i)
+            {
+                peak = std::max(peak, std::abs(x[i]));
+                if (bits == 32)
+                    continue;
+                // TPDF dither: the sum of two independent uniform variables of 1 LSB each.
+                double code = std::round(x[i] * scale + uniform(rng) + uniform(rng));
+                if (code > maxCode || code < -scale)
+                {
+                    ++clipped;
+                    code = std::clamp(code, -scale, maxCode);
+                }
+                x[i] = static_cast<float>(code / scale);
+            }
+        }
+        if (!writer->writeFromAudioSampleBuffer(buffer, 0, n))
+        {
+            printError("writing " + temp.file.getFullPathName() + " failed (disk full?)");
+            return kExitFailure;
+        }
+        done += n;
+        if (showProgress)
+        {
+            const int percent = static_cast<int>(100 * done / length);
+            if (percent / 5 != lastPercent / 5)
+            {
+                std::cerr << "\rkerf: rendering " << percent << "%" << std::flush;
+                lastPercent = percent;
+            }
+        }
+    }
+    if (showProgress)
+        std::cerr << "\n";
+
+    if (!writer->flush())
+    {
+        printError("writing " + temp.file.getFullPathName() + " failed");
+        return kExitFailure;
+    }
+    writer.reset(); // closes the file and finalises the header
+    if (interrupted.load())
+    {
+        printError("interrupted; no output written");
+        return 130;
+    }
+    if (!temp.file.moveFileTo(outFile))
+    {
+        printError("cannot move the finished output into place at " + outFile.getFullPathName());
+        return kExitFailure;
+    }
+    temp.keep = true;
+
+    if (bits != 32 && clipped > 0)
+        std::cerr << "kerf: warning: " << clipped << " samples clipped at full scale in the "
+                  << bits << "-bit output (lower the gain or write 32-bit float)\n";
+    else if (bits == 32 && peak > 1.0f)
+        std::cerr << "kerf: note: peak " << juce::Decibels::gainToDecibels(peak)
+                  << " dBFS is above full scale; the float output keeps it\n";
+    return kExitOk;
+}
+
+} // namespace kerf::cli

@@ -1,0 +1,212 @@
+#include "Parameters.h"
+
+#include "Limits.h"
+
+#include <cmath>
+
+namespace kerf
+{
+
+namespace
+{
+juce::String slotPrefix(int slot)
+{
+    return "sec" + juce::String(slot + 1).paddedLeft('0', 2);
+}
+
+/// Parses "2.5k", "1.2 kHz", "120 Hz", "-3 dB", "3db" and plain numbers.
+float parseValueText(const juce::String& text)
+{
+    auto t = text.trim().toLowerCase().removeCharacters(" ");
+    double scale = 1.0;
+    for (const char* unit : {"hz", "db"})
+        if (t.endsWith(unit))
+            t = t.dropLastCharacters(2);
+    if (t.endsWith("k"))
+    {
+        scale = 1000.0;
+        t = t.dropLastCharacters(1);
+    }
+    return static_cast<float>(t.getDoubleValue() * scale);
+}
+
+juce::String freqText(float v, int)
+{
+    return v >= 1000.0f ? juce::String(v / 1000.0f, v >= 10000.0f ? 1 : 2) + " kHz"
+                        : juce::String(v, v >= 100.0f ? 0 : 1) + " Hz";
+}
+
+juce::NormalisableRange<float> logRange(float lo, float hi)
+{
+    // Log-frequency-like mapping: equal knob travel per octave.
+    return {lo, hi,
+            [](float start, float end, float norm) { return start * std::pow(end / start, norm); },
+            [](float start, float end, float value)
+            { return std::log(value / start) / std::log(end / start); },
+            [](float start, float end, float value) { return juce::jlimit(start, end, value); }};
+}
+} // namespace
+
+namespace ids
+{
+juce::String slotOn(int slot)
+{
+    return slotPrefix(slot) + "_on";
+}
+juce::String slotFreq(int slot)
+{
+    return slotPrefix(slot) + "_freq";
+}
+juce::String slotGain(int slot)
+{
+    return slotPrefix(slot) + "_gain";
+}
+juce::String slotQ(int slot)
+{
+    return slotPrefix(slot) + "_q";
+}
+} // namespace ids
+
+double defaultSlotFreqHz(int slot)
+{
+    // 24 slots from 40 Hz to 16 kHz, log-evenly spaced.
+    return 40.0 * std::pow(16000.0 / 40.0, slot / static_cast<double>(kNumSectionSlots - 1));
+}
+
+juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
+{
+    using namespace dsp::limits;
+    using juce::AudioParameterFloatAttributes;
+    juce::AudioProcessorValueTreeState::ParameterLayout layout;
+
+    const auto gainAttr =
+        AudioParameterFloatAttributes()
+            .withLabel("dB")
+            .withStringFromValueFunction([](float v, int) { return juce::String(v, 1) + " dB"; })
+            .withValueFromStringFunction(parseValueText);
+    const auto freqAttr = AudioParameterFloatAttributes()
+                              .withLabel("Hz")
+                              .withStringFromValueFunction(freqText)
+                              .withValueFromStringFunction(parseValueText);
+    const auto qAttr =
+        AudioParameterFloatAttributes()
+            .withStringFromValueFunction([](float v, int) { return juce::String(v, 2); })
+            .withValueFromStringFunction(parseValueText);
+
+    for (int i = 0; i < kNumSectionSlots; ++i)
+    {
+        const juce::String name = "Section " + juce::String(i + 1);
+        auto group =
+            std::make_unique<juce::AudioProcessorParameterGroup>(slotPrefix(i), name, " | ");
+        group->addChild(std::make_unique<juce::AudioParameterBool>(
+            juce::ParameterID{ids::slotOn(i), kParameterVersion}, name + " on", false));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            juce::ParameterID{ids::slotFreq(i), kParameterVersion}, name + " frequency",
+            logRange(static_cast<float>(kFreqMinHz), static_cast<float>(kFreqMaxHz)),
+            static_cast<float>(defaultSlotFreqHz(i)), freqAttr));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            juce::ParameterID{ids::slotGain(i), kParameterVersion}, name + " gain",
+            juce::NormalisableRange<float>(static_cast<float>(kGainMinDb),
+                                           static_cast<float>(kGainMaxDb)),
+            0.0f, gainAttr));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            juce::ParameterID{ids::slotQ(i), kParameterVersion}, name + " Q",
+            logRange(static_cast<float>(kQMin), static_cast<float>(kQMax)), 1.0f, qAttr));
+        layout.add(std::move(group));
+    }
+
+    layout.add(std::make_unique<juce::AudioParameterFloat>(
+        juce::ParameterID{ids::outputGain, kParameterVersion}, "Output gain",
+        juce::NormalisableRange<float>(-24.0f, 12.0f), 0.0f, gainAttr));
+    layout.add(std::make_unique<juce::AudioParameterBool>(
+        juce::ParameterID{ids::protectOn, kParameterVersion}, "Output protection", true));
+    layout.add(std::make_unique<juce::AudioParameterFloat>(
+        juce::ParameterID{ids::protectCeiling, kParameterVersion}, "Protection ceiling",
+        juce::NormalisableRange<float>(-24.0f, 0.0f), -1.0f, gainAttr));
+    return layout;
+}
+
+ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
+{
+    for (int i = 0; i < kNumSectionSlots; ++i)
+    {
+        auto& s = slots[static_cast<std::size_t>(i)];
+        s.on = state.getRawParameterValue(ids::slotOn(i));
+        s.freq = state.getRawParameterValue(ids::slotFreq(i));
+        s.gain = state.getRawParameterValue(ids::slotGain(i));
+        s.q = state.getRawParameterValue(ids::slotQ(i));
+        jassert(s.on && s.freq && s.gain && s.q);
+    }
+    outputGainDb = state.getRawParameterValue(ids::outputGain);
+    protectOn = state.getRawParameterValue(ids::protectOn);
+    protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
+}
+
+void ParameterRefs::readChain(dsp::ChainSpec& out) const noexcept
+{
+    out.numStages = kNumSectionSlots;
+    for (int i = 0; i < kNumSectionSlots; ++i)
+    {
+        const auto& s = slots[static_cast<std::size_t>(i)];
+        auto& st = out.stages[static_cast<std::size_t>(i)];
+        st.type = dsp::StageType::peaking;
+        st.enabled = s.on->load(std::memory_order_relaxed) > 0.5f;
+        st.freqHz = s.freq->load(std::memory_order_relaxed);
+        st.gainDb = s.gain->load(std::memory_order_relaxed);
+        st.q = s.q->load(std::memory_order_relaxed);
+    }
+}
+
+bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorValueTreeState& state,
+                            juce::String& error)
+{
+    if (chain.numStages > kNumSectionSlots)
+    {
+        error = "the chain has " + juce::String(chain.numStages) + " stages; the plugin has " +
+                juce::String(kNumSectionSlots) + " section slots";
+        return false;
+    }
+    auto set = [&state](const juce::String& id, float value)
+    {
+        auto* p = state.getParameter(id);
+        p->setValueNotifyingHost(p->convertTo0to1(value));
+    };
+    for (int i = 0; i < kNumSectionSlots; ++i)
+    {
+        if (i < chain.numStages)
+        {
+            const auto& s = chain.stages[static_cast<std::size_t>(i)];
+            set(ids::slotOn(i), s.enabled ? 1.0f : 0.0f);
+            set(ids::slotFreq(i), static_cast<float>(s.freqHz));
+            set(ids::slotGain(i), static_cast<float>(s.gainDb));
+            set(ids::slotQ(i), static_cast<float>(s.q));
+        }
+        else
+        {
+            set(ids::slotOn(i), 0.0f);
+            set(ids::slotFreq(i), static_cast<float>(defaultSlotFreqHz(i)));
+            set(ids::slotGain(i), 0.0f);
+            set(ids::slotQ(i), 1.0f);
+        }
+    }
+    return true;
+}
+
+dsp::ChainSpec chainFromParameters(const juce::AudioProcessorValueTreeState& state)
+{
+    dsp::ChainSpec chain;
+    for (int i = 0; i < kNumSectionSlots; ++i)
+    {
+        if (*state.getRawParameterValue(ids::slotOn(i)) < 0.5f)
+            continue;
+        dsp::StageSpec s;
+        s.type = dsp::StageType::peaking;
+        s.freqHz = *state.getRawParameterValue(ids::slotFreq(i));
+        s.gainDb = *state.getRawParameterValue(ids::slotGain(i));
+        s.q = *state.getRawParameterValue(ids::slotQ(i));
+        chain.push(s);
+    }
+    return chain;
+}
+
+} // namespace kerf

@@ -1,0 +1,64 @@
+#pragma once
+// The plugin's parameter layout and its mapping to and from a chain description.
+#include "Chain.h"
+
+#include <juce_audio_processors/juce_audio_processors.h>
+
+#include <array>
+
+namespace kerf
+{
+
+/// Parameter-layout version hint passed to juce::ParameterID.
+inline constexpr int kParameterVersion = 1;
+/// Section slots the plugin offers.
+inline constexpr int kNumSectionSlots = 24;
+
+/// Parameter IDs. Host automation and saved sessions refer to these strings: never rename.
+namespace ids
+{
+juce::String slotOn(int slot);   ///< "sec01_on"
+juce::String slotFreq(int slot); ///< "sec01_freq"
+juce::String slotGain(int slot); ///< "sec01_gain"
+juce::String slotQ(int slot);    ///< "sec01_q"
+inline const juce::String outputGain = "out_gain";
+inline const juce::String protectOn = "protect_on";
+inline const juce::String protectCeiling = "protect_ceiling";
+} // namespace ids
+
+/// Builds the full parameter layout.
+juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout();
+
+/// Default centre frequency of a slot (spread log-evenly so new bands do not pile up).
+double defaultSlotFreqHz(int slot);
+
+/// Cached raw parameter pointers for reading on the audio thread without lookups.
+struct ParameterRefs
+{
+    struct Slot
+    {
+        std::atomic<float>* on = nullptr;
+        std::atomic<float>* freq = nullptr;
+        std::atomic<float>* gain = nullptr;
+        std::atomic<float>* q = nullptr;
+    };
+    std::array<Slot, kNumSectionSlots> slots{};
+    std::atomic<float>* outputGainDb = nullptr;
+    std::atomic<float>* protectOn = nullptr;
+    std::atomic<float>* protectCeilingDb = nullptr;
+
+    explicit ParameterRefs(juce::AudioProcessorValueTreeState& state);
+
+    /// Snapshot of the chain the parameters describe (one stage per slot). No allocation.
+    void readChain(dsp::ChainSpec& out) const noexcept;
+};
+
+/// Sets every parameter from a chain (slot i takes stage i; remaining slots switch off).
+/// Returns false when the chain has more stages than slots. Message thread.
+bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorValueTreeState& state,
+                            juce::String& error);
+
+/// The chain the parameters describe, keeping only the slots that are switched on.
+dsp::ChainSpec chainFromParameters(const juce::AudioProcessorValueTreeState& state);
+
+} // namespace kerf

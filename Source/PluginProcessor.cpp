@@ -1,0 +1,171 @@
+#include "PluginProcessor.h"
+
+#include "FactoryPresets.h"
+#include "KerfEditor.h"
+
+namespace kerf
+{
+
+namespace
+{
+const juce::Identifier kStateTag{"KerfState"};
+const juce::Identifier kStateVersionAttr{"stateVersion"};
+} // namespace
+
+KerfProcessor::KerfProcessor()
+    : AudioProcessor(BusesProperties()
+                         .withInput("Input", juce::AudioChannelSet::stereo(), true)
+                         .withOutput("Output", juce::AudioChannelSet::stereo(), true)),
+      parameters(*this, nullptr, kStateTag, createParameterLayout()), refs(parameters)
+{
+}
+
+bool KerfProcessor::isBusesLayoutSupported(const BusesLayout& layouts) const
+{
+    const auto& out = layouts.getMainOutputChannelSet();
+    if (out != juce::AudioChannelSet::mono() && out != juce::AudioChannelSet::stereo())
+        return false;
+    return layouts.getMainInputChannelSet() == out;
+}
+
+void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
+{
+    chain.prepare(sampleRate, samplesPerBlock, juce::jmax(getTotalNumOutputChannels(), 1));
+    refs.readChain(snapshot);
+    chain.setChain(snapshot);
+    lastOutputGain = juce::Decibels::decibelsToGain(refs.outputGainDb->load(), -120.0f);
+    setLatencySamples(0);
+}
+
+template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Sample>& buffer)
+{
+    juce::ScopedNoDenormals noDenormals;
+    const int numSamples = buffer.getNumSamples();
+    const int numChannels = buffer.getNumChannels();
+    for (int ch = getTotalNumInputChannels(); ch < numChannels; ++ch)
+        buffer.clear(ch, 0, numSamples);
+
+    refs.readChain(snapshot);
+    chain.setChain(snapshot);
+    chain.process(buffer.getArrayOfWritePointers(), numChannels, numSamples);
+
+    // Output gain ramps across the block so that a change does not click.
+    const double target =
+        juce::Decibels::decibelsToGain(static_cast<double>(refs.outputGainDb->load()), -120.0);
+    if (target != lastOutputGain || target != 1.0)
+        for (int ch = 0; ch < numChannels; ++ch)
+            buffer.applyGainRamp(ch, 0, numSamples, static_cast<Sample>(lastOutputGain),
+                                 static_cast<Sample>(target));
+    lastOutputGain = target;
+
+    if (refs.protectOn->load() > 0.5f)
+    {
+        protection.setCeilingDb(refs.protectCeilingDb->load());
+        protection.process(buffer.getArrayOfWritePointers(), numChannels, numSamples);
+    }
+}
+
+void KerfProcessor::processBlock(juce::AudioBuffer<float>& buffer, juce::MidiBuffer&)
+{
+    processAny(buffer);
+}
+
+void KerfProcessor::processBlock(juce::AudioBuffer<double>& buffer, juce::MidiBuffer&)
+{
+    processAny(buffer);
+}
+
+juce::AudioProcessorEditor* KerfProcessor::createEditor()
+{
+    return new KerfEditor(*this);
+}
+
+int KerfProcessor::getNumPrograms()
+{
+    return factoryPresets().size() + 1;
+}
+
+const juce::String KerfProcessor::getProgramName(int index)
+{
+    if (index == 0)
+        return "Flat";
+    const auto& presets = factoryPresets();
+    return juce::isPositiveAndBelow(index - 1, presets.size()) ? presets[index - 1].name
+                                                               : juce::String();
+}
+
+void KerfProcessor::setCurrentProgram(int index)
+{
+    const auto& presets = factoryPresets();
+    if (!juce::isPositiveAndBelow(index, presets.size() + 1))
+        return;
+    currentProgram = index;
+    importChain(index == 0 ? dsp::ChainSpec{} : presets[index - 1].chain);
+}
+
+juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain)
+{
+    juce::String error;
+    applyChainToParameters(newChain, parameters, error);
+    return error;
+}
+
+void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)
+{
+    auto tree = parameters.copyState();
+    tree.setProperty(kStateVersionAttr, kStateVersion, nullptr);
+    if (auto xml = tree.createXml())
+        copyXmlToBinary(*xml, destData);
+}
+
+void KerfProcessor::resetToDefaults()
+{
+    for (auto* p : getParameters())
+        if (auto* ranged = dynamic_cast<juce::RangedAudioParameter*>(p))
+            ranged->setValueNotifyingHost(ranged->getDefaultValue());
+}
+
+void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
+{
+    stateProblem.clear();
+    const auto xml = getXmlFromBinary(data, sizeInBytes);
+    if (xml == nullptr || !xml->hasTagName(kStateTag))
+    {
+        stateProblem = "the saved state is not Kerf state; parameters reset to defaults";
+        DBG(stateProblem);
+        resetToDefaults();
+        return;
+    }
+    const int version = xml->getIntAttribute(kStateVersionAttr, 0);
+    if (version > kStateVersion)
+    {
+        stateProblem = "the saved state comes from a newer Kerf (state version " +
+                       juce::String(version) + "); parameters reset to defaults";
+        DBG(stateProblem);
+        resetToDefaults();
+        return;
+    }
+    // Parameters the saved state lacks (it came from an older Kerf) take their defaults,
+    // not whatever happened to be current.
+    resetToDefaults();
+    auto tree = juce::ValueTree::fromXml(*xml);
+    auto current = parameters.copyState();
+    for (int i = 0; i < current.getNumChildren(); ++i)
+    {
+        auto child = current.getChild(i);
+        const auto id = child.getProperty("id").toString();
+        auto saved = tree.getChildWithProperty("id", id);
+        if (saved.isValid() && saved.hasProperty("value"))
+            child.setProperty("value", saved.getProperty("value"), nullptr);
+        else if (auto* p = parameters.getParameter(id))
+            child.setProperty("value", p->convertFrom0to1(p->getDefaultValue()), nullptr);
+    }
+    parameters.replaceState(current);
+}
+
+} // namespace kerf
+
+juce::AudioProcessor* JUCE_CALLTYPE createPluginFilter()
+{
+    return new kerf::KerfProcessor();
+}

@@ -1,0 +1,250 @@
+// The kerf command, run as a user would run it.
+#include "ChainFile.h"
+#include "Response/SystemFunction.h"
+
+#include <catch2/catch.hpp>
+#include <juce_audio_formats/juce_audio_formats.h>
+
+using namespace kerf;
+
+namespace
+{
+struct RunResult
+{
+    int exitCode = -1;
+    juce::String output;
+};
+
+RunResult runKerf(const juce::StringArray& args)
+{
+    juce::StringArray cmd;
+    cmd.add(KERF_CLI_PATH);
+    cmd.addArray(args);
+    juce::ChildProcess proc;
+    RunResult r;
+    if (!proc.start(cmd, juce::ChildProcess::wantStdOut | juce::ChildProcess::wantStdErr))
+        return r;
+    r.output = proc.readAllProcessOutput();
+    proc.waitForProcessToFinish(60000);
+    r.exitCode = static_cast<int>(proc.getExitCode());
+    return r;
+}
+
+struct TempDir
+{
+    juce::File dir = juce::File::getSpecialLocation(juce::File::tempDirectory)
+                         .getNonexistentChildFile("kerf-cli-test", "", false);
+    TempDir() { dir.createDirectory(); }
+    ~TempDir() { dir.deleteRecursively(); }
+    juce::File operator[](const char* name) const { return dir.getChildFile(name); }
+};
+
+void writeWav(const juce::File& f, const juce::AudioBuffer<float>& b, double rate, int bits)
+{
+    f.deleteFile();
+    juce::WavAudioFormat wav;
+    std::unique_ptr<juce::AudioFormatWriter> w(
+        wav.createWriterFor(new juce::FileOutputStream(f), rate,
+                            static_cast<unsigned>(b.getNumChannels()), bits, {}, 0));
+    REQUIRE(w != nullptr);
+    REQUIRE(w->writeFromAudioSampleBuffer(b, 0, b.getNumSamples()));
+}
+
+std::unique_ptr<juce::AudioFormatReader> openWav(const juce::File& f)
+{
+    juce::WavAudioFormat wav;
+    return std::unique_ptr<juce::AudioFormatReader>(
+        wav.createReaderFor(new juce::FileInputStream(f), true));
+}
+
+const char* kChain = R"({"format": "kerf-chain", "version": 1, "stages": [
+  {"type": "peaking", "freq_hz": 1000, "gain_db": 6, "q": 1.0, "enabled": true},
+  {"type": "peaking", "freq_hz": 120, "gain_db": -8, "q": 3.0, "enabled": true}]})";
+} // namespace
+
+TEST_CASE("cli: render of an impulse equals the Dsp library processing the same chain", "[cli]")
+{
+    // Project invariant: kerf render runs exactly the Dsp code (checked sample for sample).
+    juce::ScopedJuceInitialiser_GUI init;
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    const double rate = 44100.0;
+    const int n = 20000; // several processing blocks, not a multiple of the block size
+    juce::AudioBuffer<float> in(2, n);
+    in.clear();
+    in.setSample(0, 0, 1.0f);
+    in.setSample(1, 3, -0.25f);
+    writeWav(t["in.wav"], in, rate, 32);
+
+    const auto r = runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                            "--chain", t["chain.json"].getFullPathName()});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    auto reader = openWav(t["out.wav"]);
+    REQUIRE(reader != nullptr);
+    CHECK(reader->sampleRate == rate);
+    CHECK(reader->numChannels == 2);
+    CHECK(reader->lengthInSamples == n);
+    CHECK(reader->usesFloatingPointData);
+    juce::AudioBuffer<float> out(2, n);
+    REQUIRE(reader->read(&out, 0, n, 0, true, true));
+
+    const auto chain = parseChainJson(kChain);
+    REQUIRE(chain.ok);
+    const auto ir = dsp::impulseResponse(chain.chain, rate, n);
+    int mismatches = 0;
+    for (int i = 0; i < n; ++i)
+    {
+        if (out.getSample(0, i) != static_cast<float>(ir[static_cast<std::size_t>(i)]))
+            ++mismatches;
+        const double right = i >= 3 ? -0.25 * ir[static_cast<std::size_t>(i - 3)] : 0.0;
+        CHECK(out.getSample(1, i) == Approx(right).margin(1e-7));
+    }
+    CHECK(mismatches == 0);
+}
+
+TEST_CASE("cli: PCM output keeps rate, channels and length; dither is TPDF-sized", "[cli]")
+{
+    // Source (from memory): TPDF dither of 2 LSB peak-to-peak adds noise power LSB^2/4
+    // on top of the rounding's LSB^2/12, i.e. total LSB^2/3 for a silent input.
+    juce::ScopedJuceInitialiser_GUI init;
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    const int n = 96000;
+    juce::AudioBuffer<float> in(1, n);
+    in.clear();
+    writeWav(t["in.wav"], in, 96000.0, 32);
+    const auto r = runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                            "--chain", t["chain.json"].getFullPathName(), "--bits", "16"});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    auto reader = openWav(t["out.wav"]);
+    REQUIRE(reader != nullptr);
+    CHECK(reader->bitsPerSample == 16);
+    CHECK(reader->sampleRate == 96000.0);
+    CHECK(reader->numChannels == 1);
+    CHECK(reader->lengthInSamples == n);
+    juce::AudioBuffer<float> out(1, n);
+    reader->read(&out, 0, n, 0, true, true);
+    double power = 0.0;
+    for (int i = 0; i < n; ++i)
+        power += juce::square(out.getSample(0, i) * 32768.0);
+    power /= n;
+    CHECK(power == Approx(0.5).margin(0.1)); // rounding of (u1+u2): variance 1/6 + ... ~ 0.5 LSB^2
+}
+
+TEST_CASE("cli: bad input gives a clear message, a non-zero exit and leaves input untouched",
+          "[cli]")
+{
+    // Common practice for batch tools: fail loudly, never damage the source.
+    juce::ScopedJuceInitialiser_GUI init;
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    juce::AudioBuffer<float> in(2, 48000);
+    for (int i = 0; i < 48000; ++i)
+        in.setSample(0, i, 0.1f * std::sin(0.05f * static_cast<float>(i))),
+            in.setSample(1, i, 0.0f);
+    writeWav(t["in.wav"], in, 48000.0, 24);
+    juce::MemoryBlock original;
+    t["in.wav"].loadFileAsData(original);
+
+    SECTION("truncated WAV")
+    {
+        juce::MemoryBlock cut(original.getData(), original.getSize() / 2);
+        t["cut.wav"].replaceWithData(cut.getData(), cut.getSize());
+        const auto r =
+            runKerf({"render", t["cut.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                     "--chain", t["chain.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("truncated"));
+        CHECK_FALSE(t["out.wav"].exists());
+    }
+    SECTION("a directory as input")
+    {
+        const auto r = runKerf({"render", t.dir.getFullPathName(), t["out.wav"].getFullPathName(),
+                                "--chain", t["chain.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("directory"));
+    }
+    SECTION("an unreadable chain file")
+    {
+        t["bad.json"].replaceWithText("{\"format\": \"kerf-chain\", \"version\": 1, \"stages\": [");
+        auto r = runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                          "--chain", t["bad.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("bad.json"));
+        r = runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                     "--chain", t["missing.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("does not exist"));
+        r = runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                     "--chain", t.dir.getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("directory"));
+        CHECK_FALSE(t["out.wav"].exists());
+    }
+    SECTION("output path equal to the input, directly or through a link")
+    {
+        auto r = runKerf({"render", t["in.wav"].getFullPathName(), t["in.wav"].getFullPathName(),
+                          "--chain", t["chain.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("never writes over its input"));
+        REQUIRE(t["in.wav"].createSymbolicLink(t["link.wav"], true));
+        r = runKerf({"render", t["in.wav"].getFullPathName(), t["link.wav"].getFullPathName(),
+                     "--chain", t["chain.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+    }
+    SECTION("not audio at all")
+    {
+        t["noise.wav"].replaceWithText("RIFF but not really a wave file");
+        const auto r =
+            runKerf({"render", t["noise.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                     "--chain", t["chain.json"].getFullPathName()});
+        CHECK(r.exitCode != 0);
+        CHECK(r.output.contains("not a readable"));
+    }
+    // Whatever happened, the input is byte for byte what it was, and no temp file is left.
+    juce::MemoryBlock after;
+    t["in.wav"].loadFileAsData(after);
+    CHECK(after == original);
+    CHECK(t.dir.findChildFiles(juce::File::findFiles, false, "*.tmp").isEmpty());
+}
+
+TEST_CASE("cli: response prints the documented CSV and JSON", "[cli]")
+{
+    // Source: output formats documented in README.md; values from the Dsp system function.
+    juce::ScopedJuceInitialiser_GUI init;
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    auto r = runKerf({"response", "--chain", t["chain.json"].getFullPathName()});
+    REQUIRE(r.exitCode == 0);
+    auto lines = juce::StringArray::fromLines(r.output.trim());
+    CHECK(lines[0] == "freq_hz,magnitude_db,phase_deg,group_delay_samples");
+    CHECK(lines.size() == 513);
+    CHECK(lines[1].upToFirstOccurrenceOf(",", false, false).getDoubleValue() == Approx(10.0));
+    CHECK(lines[512].upToFirstOccurrenceOf(",", false, false).getDoubleValue() < 24000.0);
+    CHECK(lines[512].upToFirstOccurrenceOf(",", false, false).getDoubleValue() > 23990.0);
+
+    r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--rate", "44100",
+                 "--freqs", "1000,120", "--format", "json"});
+    REQUIRE(r.exitCode == 0);
+    const auto json = juce::JSON::parse(r.output);
+    CHECK(static_cast<double>(json["sample_rate"]) == 44100.0);
+    const auto* points = json["points"].getArray();
+    REQUIRE(points != nullptr);
+    REQUIRE(points->size() == 2);
+    const auto chain = parseChainJson(kChain);
+    const auto expected = dsp::chainResponse(chain.chain, 44100.0, {1000.0, 120.0});
+    CHECK(static_cast<double>((*points)[0]["magnitude_db"]) ==
+          Approx(expected[0].magnitudeDb).margin(1e-9));
+    CHECK(static_cast<double>((*points)[1]["group_delay_samples"]) ==
+          Approx(expected[1].groupDelaySamples).margin(1e-9));
+
+    CHECK(runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--freqs", "30000"})
+              .exitCode == 2);
+    CHECK(runKerf({"response"}).exitCode == 2);
+    CHECK(runKerf({"--help"}).exitCode == 0);
+    CHECK(runKerf({"render", "--help"}).output.contains("Usage: kerf render"));
+    CHECK(runKerf({"response", "--help"}).output.contains("Usage: kerf response"));
+    CHECK(runKerf({"bogus"}).exitCode == 2);
+}

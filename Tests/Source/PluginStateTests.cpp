@@ -1,0 +1,167 @@
+// The processor's parameters and state, exercised directly.
+#include "ChainFile.h"
+#include "FactoryPresets.h"
+#include "PluginProcessor.h"
+#include "Response/SystemFunction.h"
+
+#include <catch2/catch.hpp>
+
+#include <random>
+
+using namespace kerf;
+
+namespace
+{
+struct JuceGuard
+{
+    juce::ScopedJuceInitialiser_GUI init;
+};
+} // namespace
+
+TEST_CASE("plugin: state round trip restores every parameter exactly", "[plugin]")
+{
+    // Common practice: a host session reopens with every parameter as it was saved.
+    JuceGuard guard;
+    const unsigned seed = 20261202u;
+    INFO("seed " << seed);
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<float> u(0.0f, 1.0f);
+
+    KerfProcessor a;
+    for (auto* p : a.getParameters())
+        p->setValueNotifyingHost(u(rng));
+    juce::MemoryBlock saved;
+    a.getStateInformation(saved);
+
+    KerfProcessor b;
+    b.setStateInformation(saved.getData(), static_cast<int>(saved.getSize()));
+    CHECK(b.lastStateProblem().isEmpty());
+    const auto pa = a.getParameters();
+    const auto pb = b.getParameters();
+    REQUIRE(pa.size() == pb.size());
+    REQUIRE(pa.size() == kNumSectionSlots * 4 + 3);
+    for (int i = 0; i < pa.size(); ++i)
+    {
+        auto* ra = dynamic_cast<juce::RangedAudioParameter*>(pa[i]);
+        auto* rb = dynamic_cast<juce::RangedAudioParameter*>(pb[i]);
+        INFO(ra->getParameterID());
+        CHECK(ra->getParameterID() == rb->getParameterID());
+        CHECK(ra->convertFrom0to1(ra->getValue()) == rb->convertFrom0to1(rb->getValue()));
+    }
+}
+
+TEST_CASE("plugin: older state fills missing parameters with defaults", "[plugin]")
+{
+    // Common practice: parameters an old session lacks take defaults, not current values.
+    JuceGuard guard;
+    KerfProcessor a;
+    a.state().getParameter(ids::slotGain(0))->setValueNotifyingHost(0.9f);
+    a.state().getParameter(ids::slotGain(5))->setValueNotifyingHost(0.9f);
+    juce::MemoryBlock saved;
+    a.getStateInformation(saved);
+    // Remove slot 5's gain from the saved XML, as if written before it existed.
+    auto xml =
+        juce::AudioProcessor::getXmlFromBinary(saved.getData(), static_cast<int>(saved.getSize()));
+    REQUIRE(xml != nullptr);
+    for (auto* child : xml->getChildIterator())
+        if (child->getStringAttribute("id") == ids::slotGain(5))
+        {
+            xml->removeChildElement(child, true);
+            break;
+        }
+    juce::MemoryBlock older;
+    juce::AudioProcessor::copyXmlToBinary(*xml, older);
+
+    KerfProcessor b;
+    b.state().getParameter(ids::slotGain(5))->setValueNotifyingHost(0.1f); // "current"
+    b.setStateInformation(older.getData(), static_cast<int>(older.getSize()));
+    CHECK(b.state().getRawParameterValue(ids::slotGain(0))->load() ==
+          a.state().getRawParameterValue(ids::slotGain(0))->load());
+    CHECK(b.state().getRawParameterValue(ids::slotGain(5))->load() == 0.0f);
+}
+
+TEST_CASE("plugin: corrupt or foreign state gives defaults and a reason", "[plugin]")
+{
+    // Common practice: never crash on a damaged session.
+    JuceGuard guard;
+    KerfProcessor p;
+    p.state().getParameter(ids::slotGain(2))->setValueNotifyingHost(0.8f);
+    const char junk[] = "definitely not a plugin state";
+    p.setStateInformation(junk, sizeof(junk));
+    CHECK(p.lastStateProblem().isNotEmpty());
+    CHECK(p.state().getRawParameterValue(ids::slotGain(2))->load() == 0.0f);
+    p.setStateInformation(nullptr, 0);
+    CHECK(p.lastStateProblem().isNotEmpty());
+}
+
+TEST_CASE("plugin: processing equals the Dsp chain and reports zero latency", "[plugin]")
+{
+    // Project invariant: the plugin path is the Dsp path (same code, same numbers).
+    JuceGuard guard;
+    KerfProcessor p;
+    const auto& presets = factoryPresets();
+    REQUIRE(presets.size() >= 1);
+    p.setCurrentProgram(1);
+    p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
+    const double fs = 48000.0;
+    p.setPlayConfigDetails(2, 2, fs, 512);
+    p.prepareToPlay(fs, 512);
+    CHECK(p.getLatencySamples() == 0);
+
+    juce::AudioBuffer<float> buffer(2, 512);
+    buffer.clear();
+    buffer.setSample(0, 0, 1.0f);
+    buffer.setSample(1, 0, 0.5f);
+    juce::MidiBuffer midi;
+    p.processBlock(buffer, midi);
+
+    const auto ir = kerf::dsp::impulseResponse(p.exportChain(), fs, 512);
+    for (int i = 0; i < 512; ++i)
+    {
+        CHECK(buffer.getSample(0, i) == Approx(ir[static_cast<std::size_t>(i)]).margin(1e-6));
+        CHECK(buffer.getSample(1, i) == Approx(0.5 * ir[static_cast<std::size_t>(i)]).margin(1e-6));
+    }
+}
+
+TEST_CASE("plugin: output protection holds the ceiling", "[plugin]")
+{
+    // Common practice (safety): nothing above the ceiling leaves the plugin; NaN becomes 0.
+    JuceGuard guard;
+    KerfProcessor p;
+    p.setPlayConfigDetails(2, 2, 48000.0, 64);
+    p.prepareToPlay(48000.0, 64);
+    juce::AudioBuffer<float> buffer(2, 64);
+    for (int i = 0; i < 64; ++i)
+    {
+        buffer.setSample(0, i, 4.0f);
+        buffer.setSample(1, i, -4.0f);
+    }
+    buffer.setSample(0, 10, std::numeric_limits<float>::quiet_NaN());
+    juce::MidiBuffer midi;
+    p.processBlock(buffer, midi);
+    const float ceiling = juce::Decibels::decibelsToGain(-1.0f);
+    for (int ch = 0; ch < 2; ++ch)
+        for (int i = 0; i < 64; ++i)
+        {
+            CHECK(std::isfinite(buffer.getSample(ch, i)));
+            CHECK(std::abs(buffer.getSample(ch, i)) <= ceiling + 1e-7f);
+        }
+    CHECK(p.takeProtectionCount() > 0);
+}
+
+TEST_CASE("plugin: export then import of a chain restores the same chain", "[plugin]")
+{
+    // Common practice: export/import round trip.
+    JuceGuard guard;
+    KerfProcessor p;
+    const auto parsed = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+        {"type": "peaking", "freq_hz": 1000, "gain_db": 6, "q": 1.0, "enabled": true},
+        {"type": "peaking", "freq_hz": 250, "gain_db": -3.5, "q": 2.0, "enabled": true}]})");
+    REQUIRE(parsed.ok);
+    CHECK(p.importChain(parsed.chain).isEmpty());
+    const auto back = p.exportChain();
+    REQUIRE(back.numStages == 2);
+    CHECK(back.stages[0].freqHz == Approx(1000.0).epsilon(1e-6));
+    CHECK(back.stages[1].gainDb == Approx(-3.5).epsilon(1e-6));
+    CHECK(back.stages[1].q == Approx(2.0).epsilon(1e-6));
+}
