@@ -36,14 +36,39 @@ juce::String freqText(float v, int)
                         : juce::String(v, v >= 100.0f ? 0 : 1) + " Hz";
 }
 
-juce::NormalisableRange<float> logRange(float lo, float hi)
+/// Rounds to `digits` significant digits. Parameter values live on this grid so that
+/// saving and restoring (which passes through the normalised 0..1 value in float) gives
+/// back exactly the same value: the round trip's error (about 1e-6 relative) is far below
+/// half a grid step.
+float snapSignificant(float value, int digits)
 {
-    // Log-frequency-like mapping: equal knob travel per octave.
+    if (value == 0.0f || !std::isfinite(value))
+        return value;
+    const double e = std::floor(std::log10(std::abs(static_cast<double>(value))));
+    const double step = std::pow(10.0, e - digits + 1);
+    return static_cast<float>(std::round(value / step) * step);
+}
+
+/// Log mapping (equal knob travel per octave) with values on a significant-digit grid.
+juce::NormalisableRange<float> logRange(float lo, float hi, int digits)
+{
     return {lo, hi,
             [](float start, float end, float norm) { return start * std::pow(end / start, norm); },
             [](float start, float end, float value)
             { return std::log(value / start) / std::log(end / start); },
-            [](float start, float end, float value) { return juce::jlimit(start, end, value); }};
+            [digits](float start, float end, float value)
+            { return juce::jlimit(start, end, snapSignificant(value, digits)); }};
+}
+
+/// Linear dB mapping with values on a 0.01 dB grid.
+juce::NormalisableRange<float> dbRange(float lo, float hi)
+{
+    return {lo, hi, [](float start, float end, float norm) { return start + norm * (end - start); },
+            [](float start, float end, float value) { return (value - start) / (end - start); },
+            [](float start, float end, float value) {
+                return juce::jlimit(start, end,
+                                    static_cast<float>(std::round(value * 100.0) / 100.0));
+            }};
 }
 } // namespace
 
@@ -69,8 +94,11 @@ juce::String slotQ(int slot)
 
 double defaultSlotFreqHz(int slot)
 {
-    // 24 slots from 40 Hz to 16 kHz, log-evenly spaced.
-    return 40.0 * std::pow(16000.0 / 40.0, slot / static_cast<double>(kNumSectionSlots - 1));
+    // 24 slots from 40 Hz to 16 kHz, log-evenly spaced, rounded to 3 significant digits.
+    return snapSignificant(
+        static_cast<float>(
+            40.0 * std::pow(16000.0 / 40.0, slot / static_cast<double>(kNumSectionSlots - 1))),
+        3);
 }
 
 juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
@@ -102,27 +130,26 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
             juce::ParameterID{ids::slotOn(i), kParameterVersion}, name + " on", false));
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             juce::ParameterID{ids::slotFreq(i), kParameterVersion}, name + " frequency",
-            logRange(static_cast<float>(kFreqMinHz), static_cast<float>(kFreqMaxHz)),
+            logRange(static_cast<float>(kFreqMinHz), static_cast<float>(kFreqMaxHz), 5),
             static_cast<float>(defaultSlotFreqHz(i)), freqAttr));
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             juce::ParameterID{ids::slotGain(i), kParameterVersion}, name + " gain",
-            juce::NormalisableRange<float>(static_cast<float>(kGainMinDb),
-                                           static_cast<float>(kGainMaxDb)),
-            0.0f, gainAttr));
+            dbRange(static_cast<float>(kGainMinDb), static_cast<float>(kGainMaxDb)), 0.0f,
+            gainAttr));
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             juce::ParameterID{ids::slotQ(i), kParameterVersion}, name + " Q",
-            logRange(static_cast<float>(kQMin), static_cast<float>(kQMax)), 1.0f, qAttr));
+            logRange(static_cast<float>(kQMin), static_cast<float>(kQMax), 4), 1.0f, qAttr));
         layout.add(std::move(group));
     }
 
     layout.add(std::make_unique<juce::AudioParameterFloat>(
         juce::ParameterID{ids::outputGain, kParameterVersion}, "Output gain",
-        juce::NormalisableRange<float>(-24.0f, 12.0f), 0.0f, gainAttr));
+        dbRange(-24.0f, 12.0f), 0.0f, gainAttr));
     layout.add(std::make_unique<juce::AudioParameterBool>(
         juce::ParameterID{ids::protectOn, kParameterVersion}, "Output protection", true));
     layout.add(std::make_unique<juce::AudioParameterFloat>(
         juce::ParameterID{ids::protectCeiling, kParameterVersion}, "Protection ceiling",
-        juce::NormalisableRange<float>(-24.0f, 0.0f), -1.0f, gainAttr));
+        dbRange(-24.0f, 0.0f), -1.0f, gainAttr));
     return layout;
 }
 
