@@ -1,5 +1,7 @@
 #include "Peaking.h"
 
+#include "Matched.h"
+
 #include <algorithm>
 #include <cmath>
 #include <numbers>
@@ -37,6 +39,55 @@ BiquadCoeffs designPeakingBilinear(double freqHz, double gainDb, double q,
     c.a1 = (-2.0 * cosW0) / a0;
     c.a2 = (1.0 - alpha / A) / a0;
     return c;
+}
+
+namespace
+{
+/// Below this fraction of fs the matched-pole design of Vicanek (2016) is already within a
+/// few hundredths of a dB of the prototype; above it the constrained fit takes over.
+constexpr double kFitAboveFraction = 0.05;
+/// Upper end of the fitted band, as a fraction of fs (just above the 0.45 fs of the bars).
+constexpr double kFitTopFraction = 0.46;
+} // namespace
+
+BiquadCoeffs designPeaking(double freqHz, double gainDb, double q, double sampleRateHz,
+                           DesignMode mode) noexcept
+{
+    if (mode == DesignMode::bilinear)
+        return designPeakingBilinear(freqHz, gainDb, q, sampleRateHz);
+    if (gainDb == 0.0 || !std::isfinite(gainDb))
+        return BiquadCoeffs::identity();
+
+    const double f0 = clampDesignFrequency(freqHz, sampleRateHz);
+    const double safeQ = std::max(q, 1.0e-3);
+    const double w0 = 2.0 * std::numbers::pi * f0 / sampleRateHz;
+    // Design the boost; a cut is its exact inverse, because the Cookbook prototype with
+    // A -> 1/A is 1/H(s) (common practice). The boost has the high-Q poles, which are
+    // matched exactly; the broad zeros are fitted.
+    const double A = std::pow(10.0, std::abs(gainDb) / 40.0);
+    const double aOverQ = A / safeQ, invAQ = 1.0 / (A * safeQ);
+    // |H(j W)|^2 of the Cookbook prototype at W = w/w0:
+    //   ((1 - W^2)^2 + (W A/q)^2) / ((1 - W^2)^2 + (W/(A q))^2).
+    auto target = [=](double w)
+    {
+        const double W = w / w0;
+        const double re = (1.0 - W * W) * (1.0 - W * W);
+        return (re + W * W * aOverQ * aOverQ) / (re + W * W * invAQ * invAQ);
+    };
+
+    BiquadCoeffs boost;
+    const bool fitted =
+        f0 >= kFitAboveFraction * sampleRateHz &&
+        matched::fitMagnitudeSquared(target, w0, 2.0 * std::numbers::pi * kFitTopFraction, boost);
+    if (!fitted)
+    {
+        // M. Vicanek, "Matched Second Order Digital Filters" (2016), peaking EQ: poles
+        // matched (pole Q = A q), |H| matched at DC (1), at f0 (A^2) and at Nyquist.
+        double a1, a2;
+        matched::poles(w0, A * safeQ, a1, a2);
+        boost = matched::numeratorMatched(a1, a2, 1.0, A * A * A * A, w0, target(std::numbers::pi));
+    }
+    return gainDb > 0.0 ? boost : matched::inverse(boost);
 }
 
 } // namespace kerf::dsp

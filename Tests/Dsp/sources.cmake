@@ -1,4 +1,5 @@
 # Test sources of kerf_dsp_tests (the DSP core's tests, built without JUCE).
 set(KERF_DSP_TEST_SOURCES
   ${CMAKE_CURRENT_LIST_DIR}/PeakingDesignTests.cpp
+  ${CMAKE_CURRENT_LIST_DIR}/SectionDesignTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/SystemFunctionTests.cpp)
