@@ -78,7 +78,8 @@ int onXrun(void* arg)
 bool connectPorts(jack_client_t* client, const char* peer, State& s)
 {
     const std::string base = std::string("^") + peer + ":";
-    const char** ins = jack_get_ports(client, base.c_str(), JACK_DEFAULT_AUDIO_TYPE, JackPortIsInput);
+    const char** ins =
+        jack_get_ports(client, base.c_str(), JACK_DEFAULT_AUDIO_TYPE, JackPortIsInput);
     const char** outs =
         jack_get_ports(client, base.c_str(), JACK_DEFAULT_AUDIO_TYPE, JackPortIsOutput);
     bool ok = ins && outs && ins[0] && ins[1] && outs[0] && outs[1];
@@ -86,8 +87,8 @@ bool connectPorts(jack_client_t* client, const char* peer, State& s)
     {
         for (int c = 0; c < kChannels; ++c)
         {
-            std::printf("playrec: %s -> %s, %s -> %s\n", jack_port_name(s.out[c]), ins[c],
-                        outs[c], jack_port_name(s.in[c]));
+            std::printf("playrec: %s -> %s, %s -> %s\n", jack_port_name(s.out[c]), ins[c], outs[c],
+                        jack_port_name(s.in[c]));
             ok = ok && jack_connect(client, jack_port_name(s.out[c]), ins[c]) == 0;
             ok = ok && jack_connect(client, outs[c], jack_port_name(s.in[c])) == 0;
         }
@@ -145,10 +146,10 @@ int main(int argc, char** argv)
     const char* names[kChannels][2] = {{"play_1", "rec_1"}, {"play_2", "rec_2"}};
     for (int c = 0; c < kChannels; ++c)
     {
-        s.out[c] = jack_port_register(client, names[c][0], JACK_DEFAULT_AUDIO_TYPE,
-                                      JackPortIsOutput, 0);
-        s.in[c] = jack_port_register(client, names[c][1], JACK_DEFAULT_AUDIO_TYPE,
-                                     JackPortIsInput, 0);
+        s.out[c] =
+            jack_port_register(client, names[c][0], JACK_DEFAULT_AUDIO_TYPE, JackPortIsOutput, 0);
+        s.in[c] =
+            jack_port_register(client, names[c][1], JACK_DEFAULT_AUDIO_TYPE, JackPortIsInput, 0);
         if (!s.out[c] || !s.in[c])
         {
             std::fprintf(stderr, "playrec: cannot register ports\n");
@@ -183,8 +184,8 @@ int main(int argc, char** argv)
     jack_deactivate(client);
     jack_client_close(client);
     std::printf("playrec: freewheel %s, %zu of %zu frames, %d xruns reported\n",
-                freewheel ? "on" : "unavailable", complete ? s.totalFrames : s.pos,
-                s.totalFrames, s.xruns.load());
+                freewheel ? "on" : "unavailable", complete ? s.totalFrames : s.pos, s.totalFrames,
+                s.xruns.load());
     if (!complete)
     {
         std::fprintf(stderr, "playrec: timed out after %.0f s\n", timeoutS);
