@@ -1,6 +1,8 @@
 #pragma once
 // The processing graph: a description (plain values, what chain files and parameters
 // hold) and its realtime processor (prepare / reset / process).
+#include "Design/PassFilters.h"
+#include "Design/Sections.h"
 #include "Stages/SvfSection.h"
 
 #include <array>
@@ -11,23 +13,57 @@
 namespace kerf::dsp
 {
 
-/// Kinds of stage the chain can hold. Later stage kinds extend this list.
+/// Kinds of stage the chain can hold.
 enum class StageType
 {
     peaking,
+    lowShelf,
+    highShelf,
+    highPass,
+    lowPass,
+    notch,
+    bandPass,
+    allPass,
+    tilt,
 };
+inline constexpr int kNumStageTypes = 9;
 
-/// Stable text name of a stage type as written in chain files ("peaking").
+/// Which signal a stage works on. Mid = (L + R)/2, side = (L - R)/2; decoding L = M + S,
+/// R = M - S restores the pair. On a mono signal every mode but `side` works on the one
+/// channel, and a side stage does nothing (a mono signal has no side).
+enum class ChannelMode
+{
+    both,
+    left,
+    right,
+    mid,
+    side,
+};
+inline constexpr int kNumChannelModes = 5;
+
+/// Stable text names as written in chain files ("low_shelf", "mid", "linkwitz_riley"...).
 std::string_view stageTypeName(StageType type) noexcept;
+std::string_view channelModeName(ChannelMode mode) noexcept;
+std::string_view designModeName(DesignMode mode) noexcept;
+std::string_view alignmentName(PassAlignment alignment) noexcept;
 
 /// One stage's settings, in user units. Fields a stage type does not use are ignored.
 struct StageSpec
 {
     StageType type = StageType::peaking;
     bool enabled = true;
-    double freqHz = 1000.0; ///< centre frequency, Hz
-    double gainDb = 0.0;    ///< gain at the centre, dB
-    double q = 1.0;         ///< Audio EQ Cookbook Q, > 0
+    double freqHz = 1000.0; ///< centre, corner, or pivot frequency, Hz
+    double gainDb = 0.0;    ///< peaking, shelf and tilt gain, dB
+    /// Audio EQ Cookbook Q (> 0) for peaking, notch, band-pass and order-2 all-pass; for
+    /// high-/low-pass the order-2 corner Q, where 0 means "the alignment's own".
+    double q = 1.0;
+    double slope = 1.0; ///< shelf slope S (Cookbook; 1 = steepest monotonic)
+    int order = 2;      ///< high-/low-pass 1..8, all-pass 1..2
+    PassAlignment alignment = PassAlignment::butterworth;
+    ChannelMode channels = ChannelMode::both;
+    DesignMode design = DesignMode::accurate;
+
+    bool operator==(const StageSpec&) const = default;
 };
 
 /// A series chain of stages (fixed capacity so that copies never allocate).
@@ -41,17 +77,13 @@ struct ChainSpec
     bool push(const StageSpec& s) noexcept;
 };
 
-/// The most second-order sections one stage can need.
-inline constexpr int kMaxSectionsPerStage = 4;
+/// The most second-order sections one stage can need (an 8th-order high-/low-pass).
+inline constexpr int kMaxSectionsPerStage = kMaxDesignSections;
 
 /// The designed second-order sections of one stage: its exact H(z) is their product.
-struct StageSections
-{
-    std::array<BiquadCoeffs, kMaxSectionsPerStage> sections{};
-    int count = 0;
-};
+using StageSections = DesignedSections;
 
-/// Designs a stage's sections at a sample rate. An disabled stage has none (H = 1).
+/// Designs a stage's sections at a sample rate. A disabled stage has none (H = 1).
 /// Pure and allocation-free.
 StageSections designStage(const StageSpec& spec, double sampleRateHz) noexcept;
 
@@ -61,37 +93,46 @@ class ChainProcessor
 {
 public:
     static constexpr int kMaxChannels = 8;
-    static constexpr int kMaxSections = ChainSpec::kMaxStages * kMaxSectionsPerStage;
-    static constexpr int kMaxStageSlots = ChainSpec::kMaxStages;
+    static constexpr int kMaxStages = ChainSpec::kMaxStages;
+    static constexpr int kMaxSections = kMaxStages * kMaxSectionsPerStage;
 
-    /// Sets the sample rate and channel count; clears the state.
+    /// Sets the sample rate, largest block and channel count; clears the state.
     void prepare(double sampleRateHz, int maxBlockSize, int numChannels);
     /// Clears every filter memory.
     void reset() noexcept;
-    /// Designs and installs a new chain. Filter memories carry over per stage position;
-    /// a stage that was off starts from rest.
+    /// Installs a new chain. Only stages whose settings changed are redesigned; filter
+    /// memories carry over per stage position, and a stage that was off starts from rest.
     void setChain(const ChainSpec& chain) noexcept;
 
-    /// Processes numSamples of numChannels in place (float or double samples).
+    /// Processes numSamples of numChannels in place (float or double samples). Blocks
+    /// longer than the prepared size are processed in pieces.
     void process(float* const* channels, int numChannels, int numSamples) noexcept;
     void process(double* const* channels, int numChannels, int numSamples) noexcept;
 
     double sampleRateHz() const noexcept { return sampleRate; }
-    int activeSections() const noexcept { return numSections; }
+    /// Second-order sections currently running (all enabled stages).
+    int activeSections() const noexcept;
 
 private:
+    struct Stage
+    {
+        StageSpec spec;
+        bool active = false;
+        int count = 0; // sections, stored at [index * kMaxSectionsPerStage, + count)
+    };
     template <typename Sample>
     void processImpl(Sample* const* channels, int numChannels, int numSamples) noexcept;
+    void runBlock(int numChannels, int len) noexcept;
+    void runStereoStretch(int first, int end, double* l, double* r, int len) noexcept;
 
     double sampleRate = 48000.0;
     int channelCount = 2;
-    int numSections = 0;
+    int blockSize = 0;
+    int numStages = 0;
+    std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSections> coeffs{};
-    // Each stage owns a fixed block of state (stage i: sections i*kMaxSectionsPerStage...),
-    // so enabling or disabling one stage leaves the others' memories where they were.
-    std::array<int, kMaxSections> stateIndex{};
     std::array<std::array<SvfState, kMaxSections>, kMaxChannels> state{};
-    std::vector<double> scratch; // one block of one channel, sized in prepare()
+    std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
 };
 
 /// Flushes denormals to zero on this thread for its lifetime (x86 SSE; no-op elsewhere).

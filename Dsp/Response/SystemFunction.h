@@ -1,6 +1,12 @@
 #pragma once
 // Evaluation of a chain's exact system function H(z): the display and the tests use this,
 // the audio path realises the same sections.
+//
+// A stage on both channels multiplies each channel by its H. A stage on one channel, or on
+// mid or side, makes the chain a two-by-two system; a "view" picks one path through it:
+// left -> left and right -> right in the L/R basis, mid -> mid and side -> side in the M/S
+// basis (M = (L + R)/2, S = (L - R)/2), each with the other input silent. When every stage
+// is on both channels, all four views are the same H.
 #include "../Chain.h"
 
 #include <complex>
@@ -9,6 +15,15 @@
 namespace kerf::dsp
 {
 
+/// Which path of a stereo chain to evaluate (see the file comment).
+enum class ChannelView
+{
+    left,
+    right,
+    mid,
+    side,
+};
+
 /// H(e^{j omega}) of one section; omega in radians per sample.
 std::complex<double> evaluateSection(const BiquadCoeffs& c, double omega) noexcept;
 
@@ -16,9 +31,9 @@ std::complex<double> evaluateSection(const BiquadCoeffs& c, double omega) noexce
 /// analytically as Re(sum k b_k e^{-j omega k} / B) - Re(sum k a_k e^{-j omega k} / A).
 double sectionGroupDelay(const BiquadCoeffs& c, double omega) noexcept;
 
-/// H(e^{j omega}) of a whole chain at the given sample rate.
-std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz,
-                                   double freqHz) noexcept;
+/// H(e^{j omega}) of a whole chain along a view, at the given sample rate.
+std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz, double freqHz,
+                                   ChannelView view = ChannelView::left) noexcept;
 
 /// One point of a frequency response.
 struct ResponsePoint
@@ -29,15 +44,42 @@ struct ResponsePoint
     double groupDelaySamples = 0.0;
 };
 
-/// Magnitude, unwrapped phase and group delay of the chain at each frequency.
-/// freqsHz should ascend for the phase unwrapping to be meaningful.
+/// Magnitude, unwrapped phase and group delay of the chain along a view at each frequency.
+/// freqsHz should ascend for the phase unwrapping to be meaningful. Group delay is exact:
+/// -Im(H'/H) with H' carried analytically through every product and sum.
 std::vector<ResponsePoint> chainResponse(const ChainSpec& chain, double sampleRateHz,
-                                         const std::vector<double>& freqsHz);
+                                         const std::vector<double>& freqsHz,
+                                         ChannelView view = ChannelView::left);
+
+/// Magnitude in dB only, the fast path for drawing: |H|^2 of each section from real
+/// arithmetic in phi = sin^2(omega/2) (M. Vicanek, "Matched Second Order Digital Filters",
+/// 2016, eq. for |H|^2), vectorised across frequencies. Falls back to chainResponse when a
+/// mid/side stage makes the view a sum rather than a product.
+void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double* freqsHz,
+                      double* magnitudeDbOut, int count, ChannelView view = ChannelView::left);
 
 /// n log-spaced frequencies from lowHz to highHz inclusive.
 std::vector<double> logSpacedFrequencies(double lowHz, double highHz, int n);
 
-/// The chain's impulse response, rendered through ChainProcessor in double precision.
-std::vector<double> impulseResponse(const ChainSpec& chain, double sampleRateHz, int length);
+/// The chain's impulse response along a view, rendered through ChainProcessor in double
+/// precision (stereo, so channel modes act as they do in the plugin).
+std::vector<double> impulseResponse(const ChainSpec& chain, double sampleRateHz, int length,
+                                    ChannelView view = ChannelView::left);
+
+/// Poles, zeros and gain of a rational function in z (H = gain * prod(1 - z_i/z) /
+/// prod(1 - p_i/z)), the same convention as scipy.signal.tf2zpk.
+struct PoleZero
+{
+    std::vector<std::complex<double>> zeros, poles;
+    double gain = 1.0;
+};
+
+/// Roots of c[0] x^n + c[1] x^(n-1) + ... + c[n] (leading zeros dropped), from the
+/// eigenvalues of the companion matrix (Eigen), as numpy.roots computes them.
+std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c);
+
+/// Poles and zeros of one stage's own H(z) (its sections' roots together); a first-order
+/// section contributes one pole and one zero.
+PoleZero stagePolesZeros(const StageSpec& spec, double sampleRateHz);
 
 } // namespace kerf::dsp
