@@ -13,3 +13,15 @@ inline constexpr double kQMin = 0.025;
 inline constexpr double kQMax = 40.0;
 
 } // namespace kerf::dsp::limits
+
+namespace kerf::dsp::limits
+{
+
+inline constexpr double kSlopeMin = 0.1; ///< shelf slope S
+inline constexpr double kSlopeMax = 1.0; ///< S = 1: the steepest monotonic shelf (Cookbook)
+inline constexpr int kPassOrderMin = 1;  ///< high-/low-pass: 6 dB/oct
+inline constexpr int kPassOrderMax = 8;  ///< 48 dB/oct
+inline constexpr int kAllPassOrderMin = 1;
+inline constexpr int kAllPassOrderMax = 2;
+
+} // namespace kerf::dsp::limits

@@ -15,13 +15,8 @@ bool sameChain(const dsp::ChainSpec& a, const dsp::ChainSpec& b)
     if (a.numStages != b.numStages)
         return false;
     for (int i = 0; i < a.numStages; ++i)
-    {
-        const auto& x = a.stages[static_cast<std::size_t>(i)];
-        const auto& y = b.stages[static_cast<std::size_t>(i)];
-        if (x.type != y.type || x.enabled != y.enabled || x.freqHz != y.freqHz ||
-            x.gainDb != y.gainDb || x.q != y.q)
+        if (!(a.stages[static_cast<std::size_t>(i)] == b.stages[static_cast<std::size_t>(i)]))
             return false;
-    }
     return true;
 }
 } // namespace
@@ -76,13 +71,13 @@ void ResponseView::recompute()
             break;
         freqs.push_back(f);
     }
-    const auto points = dsp::chainResponse(chain, sampleRate, freqs);
-    for (std::size_t i = 0; i < points.size(); ++i)
+    magnitudeDb.resize(freqs.size());
+    dsp::chainMagnitudeDb(chain, sampleRate, freqs.data(), magnitudeDb.data(),
+                          static_cast<int>(freqs.size()));
+    for (std::size_t i = 0; i < freqs.size(); ++i)
     {
-        const double db = points[i].magnitudeDb;
-        magnitudeDb.push_back(db);
-        const float x = xForFrequency(points[i].freqHz);
-        const float y = juce::jlimit(-2.0f, getHeight() + 2.0f, yForDb(db));
+        const float x = xForFrequency(freqs[i]);
+        const float y = juce::jlimit(-2.0f, getHeight() + 2.0f, yForDb(magnitudeDb[i]));
         if (i == 0)
             curve.startNewSubPath(x, y);
         else

@@ -58,39 +58,141 @@ juce::String readRanged(const juce::DynamicObject& obj, const char* field, doubl
     return {};
 }
 
+/// Reads a whole-number field in [lo, hi]; missing -> fallback.
+juce::String readInteger(const juce::DynamicObject& obj, const char* field, int lo, int hi,
+                         int fallback, const juce::String& where, int& out)
+{
+    double value = fallback;
+    auto err = readRanged(obj, field, lo, hi, static_cast<double>(fallback), where, value);
+    if (err.isNotEmpty())
+        return err;
+    if (value != std::floor(value))
+        return where + ", field '" + field + "': expected a whole number, got " +
+               formatNumber(value);
+    out = static_cast<int>(value);
+    return {};
+}
+
+/// Reads a string field whose value must be one of `names`; missing -> index 0.
+juce::String readChoice(const juce::DynamicObject& obj, const char* field,
+                        const juce::StringArray& names, const juce::String& where, int& out)
+{
+    out = 0;
+    if (!obj.hasProperty(field))
+        return {};
+    const auto v = obj.getProperty(field);
+    const int index = v.isString() ? names.indexOf(v.toString()) : -1;
+    if (index < 0)
+        return where + ", field '" + field + "': expected one of " + names.joinIntoString(", ") +
+               ", got " + juce::JSON::toString(v, true);
+    out = index;
+    return {};
+}
+
+const juce::StringArray& typeNames()
+{
+    static const juce::StringArray names = []
+    {
+        juce::StringArray n;
+        for (int i = 0; i < dsp::kNumStageTypes; ++i)
+            n.add(juce::String(std::string(dsp::stageTypeName(static_cast<dsp::StageType>(i)))));
+        return n;
+    }();
+    return names;
+}
+
+juce::StringArray namesOf(std::initializer_list<std::string_view> list)
+{
+    juce::StringArray n;
+    for (auto s : list)
+        n.add(juce::String(std::string(s)));
+    return n;
+}
+
+/// The fields a stage type reads, besides type, enabled, channels and design.
+juce::StringArray fieldsOf(dsp::StageType type)
+{
+    using T = dsp::StageType;
+    switch (type)
+    {
+    case T::peaking:
+        return {"freq_hz", "gain_db", "q"};
+    case T::lowShelf:
+    case T::highShelf:
+        return {"freq_hz", "gain_db", "slope"};
+    case T::highPass:
+    case T::lowPass:
+        return {"freq_hz", "order", "alignment", "q"};
+    case T::notch:
+    case T::bandPass:
+        return {"freq_hz", "q"};
+    case T::allPass:
+        return {"freq_hz", "order", "q"};
+    case T::tilt:
+        return {"freq_hz", "gain_db"};
+    }
+    return {};
+}
+
 juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
 {
+    using namespace dsp::limits;
+    using T = dsp::StageType;
     const juce::String where = "stage " + juce::String(index);
     auto* obj = v.getDynamicObject();
     if (obj == nullptr || v.isArray())
         return where + ": expected an object like {\"type\": \"peaking\", ...}";
 
+    const juce::String known = "known types: " + typeNames().joinIntoString(", ");
     if (!obj->hasProperty("type"))
-        return where + ", field 'type': missing (known types: peaking)";
+        return where + ", field 'type': missing (" + known + ")";
     const juce::var typeVar = obj->getProperty("type");
     if (!typeVar.isString())
-        return where + ", field 'type': expected a string (known types: peaking)";
+        return where + ", field 'type': expected a string (" + known + ")";
     const juce::String type = typeVar.toString();
+    const int typeIndex = typeNames().indexOf(type);
+    if (typeIndex < 0)
+        return where + ", field 'type': unknown type \"" + type + "\" (" + known + ")";
 
     dsp::StageSpec s;
-    if (type == "peaking")
+    s.type = static_cast<T>(typeIndex);
+    const juce::StringArray fields = fieldsOf(s.type);
+    juce::String err;
+    auto has = [&](const char* f) { return fields.contains(f); };
+
+    err = readRanged(*obj, "freq_hz", kFreqMinHz, kFreqMaxHz, std::nullopt, where, s.freqHz);
+    if (err.isEmpty() && has("gain_db"))
+        err = readRanged(*obj, "gain_db", kGainMinDb, kGainMaxDb, 0.0, where, s.gainDb);
+    if (err.isEmpty() && has("slope"))
+        err = readRanged(*obj, "slope", kSlopeMin, kSlopeMax, 1.0, where, s.slope);
+    if (err.isEmpty() && (s.type == T::highPass || s.type == T::lowPass))
     {
-        s.type = dsp::StageType::peaking;
-        using namespace dsp::limits;
-        for (auto [field, lo, hi, fallback, target] :
-             {std::tuple{"freq_hz", kFreqMinHz, kFreqMaxHz, std::optional<double>{}, &s.freqHz},
-              std::tuple{"gain_db", kGainMinDb, kGainMaxDb, std::optional<double>{0.0}, &s.gainDb},
-              std::tuple{"q", kQMin, kQMax, std::optional<double>{1.0}, &s.q}})
+        err = readInteger(*obj, "order", kPassOrderMin, kPassOrderMax, 2, where, s.order);
+        int align = 0;
+        if (err.isEmpty())
+            err = readChoice(*obj, "alignment",
+                             namesOf({dsp::alignmentName(dsp::PassAlignment::butterworth),
+                                      dsp::alignmentName(dsp::PassAlignment::linkwitzRiley)}),
+                             where, align);
+        s.alignment = static_cast<dsp::PassAlignment>(align);
+        if (err.isEmpty() && s.alignment == dsp::PassAlignment::linkwitzRiley && s.order % 2 != 0)
+            err = where + ", field 'alignment': linkwitz_riley needs an even order (2, 4, 6 or 8)";
+        s.q = 0.0; // the alignment's own Q unless a resonant corner is asked for
+        if (err.isEmpty() && obj->hasProperty("q"))
         {
-            auto err = readRanged(*obj, field, lo, hi, fallback, where, *target);
-            if (err.isNotEmpty())
-                return err;
+            if (s.order != 2 || s.alignment != dsp::PassAlignment::butterworth)
+                err = where + ", field 'q': only an order-2 butterworth high-/low-pass takes a q "
+                              "(a resonant corner)";
+            else
+                err = readRanged(*obj, "q", kQMin, kQMax, std::nullopt, where, s.q);
         }
     }
-    else
-    {
-        return where + ", field 'type': unknown type \"" + type + "\" (known types: peaking)";
-    }
+    else if (err.isEmpty() && has("q"))
+        err = readRanged(*obj, "q", kQMin, kQMax, s.type == T::allPass ? 0.7071 : 1.0, where, s.q);
+    if (err.isEmpty() && s.type == T::allPass)
+        err = readInteger(*obj, "order", kAllPassOrderMin, kAllPassOrderMax, 2, where, s.order);
+    if (err.isNotEmpty())
+        return err;
 
     if (obj->hasProperty("enabled"))
     {
@@ -99,12 +201,30 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
             return where + ", field 'enabled': expected true or false";
         s.enabled = static_cast<bool>(e);
     }
+    int channels = 0, design = 0;
+    err = readChoice(*obj, "channels",
+                     namesOf({dsp::channelModeName(dsp::ChannelMode::both),
+                              dsp::channelModeName(dsp::ChannelMode::left),
+                              dsp::channelModeName(dsp::ChannelMode::right),
+                              dsp::channelModeName(dsp::ChannelMode::mid),
+                              dsp::channelModeName(dsp::ChannelMode::side)}),
+                     where, channels);
+    if (err.isEmpty())
+        err = readChoice(*obj, "design",
+                         namesOf({dsp::designModeName(dsp::DesignMode::accurate),
+                                  dsp::designModeName(dsp::DesignMode::bilinear)}),
+                         where, design);
+    if (err.isNotEmpty())
+        return err;
+    s.channels = static_cast<dsp::ChannelMode>(channels);
+    s.design = static_cast<dsp::DesignMode>(design);
 
-    static const juce::StringArray known{"type", "enabled", "freq_hz", "gain_db", "q"};
+    juce::StringArray allowed{"type", "enabled", "channels", "design"};
+    allowed.addArray(fields);
     for (const auto& prop : obj->getProperties())
-        if (!known.contains(prop.name.toString()))
-            return where + ", field '" + prop.name.toString() + "': unknown field for type " +
-                   type + " (known: " + known.joinIntoString(", ") + ")";
+        if (!allowed.contains(prop.name.toString()))
+            return where + ", field '" + prop.name.toString() + "': not a field of type " + type +
+                   " (its fields: " + allowed.joinIntoString(", ") + ")";
     out = s;
     return {};
 }
@@ -215,21 +335,40 @@ ChainReadResult readChainFile(const juce::File& file)
 
 juce::String chainToJson(const dsp::ChainSpec& chain, const juce::String& name)
 {
-    // Written by hand for a stable field order and readable numbers.
+    // Written by hand for a stable field order and numbers that read back exactly.
+    using T = dsp::StageType;
     juce::String out;
     out << "{\n  \"format\": \"" << kChainFormatName
         << "\",\n  \"version\": " << kChainFormatVersion << ",\n";
     if (name.isNotEmpty())
         out << "  \"name\": " << juce::JSON::toString(name) << ",\n";
     out << "  \"stages\": [";
+    auto str = [](std::string_view v) { return juce::String(std::string(v)); };
     for (int i = 0; i < chain.numStages; ++i)
     {
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
+        const auto fields = fieldsOf(s.type);
         out << (i == 0 ? "\n" : ",\n");
-        out << "    {\"type\": \"" << juce::String(std::string(dsp::stageTypeName(s.type)))
-            << "\", \"freq_hz\": " << formatNumber(s.freqHz)
-            << ", \"gain_db\": " << formatNumber(s.gainDb) << ", \"q\": " << formatNumber(s.q)
-            << ", \"enabled\": " << (s.enabled ? "true" : "false") << "}";
+        out << "    {\"type\": \"" << str(dsp::stageTypeName(s.type))
+            << "\", \"freq_hz\": " << formatNumber(s.freqHz);
+        if (fields.contains("gain_db"))
+            out << ", \"gain_db\": " << formatNumber(s.gainDb);
+        if (fields.contains("slope"))
+            out << ", \"slope\": " << formatNumber(s.slope);
+        if (fields.contains("order"))
+            out << ", \"order\": " << s.order;
+        if (fields.contains("alignment"))
+            out << ", \"alignment\": \"" << str(dsp::alignmentName(s.alignment)) << "\"";
+        const bool passType = s.type == T::highPass || s.type == T::lowPass;
+        const bool resonant =
+            s.q > 0.0 && s.order == 2 && s.alignment == dsp::PassAlignment::butterworth;
+        if (fields.contains("q") && (!passType || resonant))
+            out << ", \"q\": " << formatNumber(s.q);
+        if (s.channels != dsp::ChannelMode::both)
+            out << ", \"channels\": \"" << str(dsp::channelModeName(s.channels)) << "\"";
+        if (s.design != dsp::DesignMode::accurate)
+            out << ", \"design\": \"" << str(dsp::designModeName(s.design)) << "\"";
+        out << ", \"enabled\": " << (s.enabled ? "true" : "false") << "}";
     }
     out << (chain.numStages > 0 ? "\n  ]\n}\n" : "]\n}\n");
     return out;

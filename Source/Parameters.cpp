@@ -90,6 +90,30 @@ juce::String slotQ(int slot)
 {
     return slotPrefix(slot) + "_q";
 }
+juce::String slotType(int slot)
+{
+    return slotPrefix(slot) + "_type";
+}
+juce::String slotSlope(int slot)
+{
+    return slotPrefix(slot) + "_slope";
+}
+juce::String slotOrder(int slot)
+{
+    return slotPrefix(slot) + "_order";
+}
+juce::String slotAlign(int slot)
+{
+    return slotPrefix(slot) + "_align";
+}
+juce::String slotChan(int slot)
+{
+    return slotPrefix(slot) + "_chan";
+}
+juce::String slotDesign(int slot)
+{
+    return slotPrefix(slot) + "_design";
+}
 } // namespace ids
 
 double defaultSlotFreqHz(int slot)
@@ -128,6 +152,11 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
             std::make_unique<juce::AudioProcessorParameterGroup>(slotPrefix(i), name, " | ");
         group->addChild(std::make_unique<juce::AudioParameterBool>(
             juce::ParameterID{ids::slotOn(i), kParameterVersion}, name + " on", false));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::slotType(i), kParameterVersion}, name + " type",
+            juce::StringArray{"Peaking", "Low shelf", "High shelf", "High-pass", "Low-pass",
+                              "Notch", "Band-pass", "All-pass", "Tilt"},
+            0));
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             juce::ParameterID{ids::slotFreq(i), kParameterVersion}, name + " frequency",
             logRange(static_cast<float>(kFreqMinHz), static_cast<float>(kFreqMaxHz), 5),
@@ -139,6 +168,25 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             juce::ParameterID{ids::slotQ(i), kParameterVersion}, name + " Q",
             logRange(static_cast<float>(kQMin), static_cast<float>(kQMax), 4), 1.0f, qAttr));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            juce::ParameterID{ids::slotSlope(i), kParameterVersion}, name + " shelf slope",
+            logRange(static_cast<float>(kSlopeMin), static_cast<float>(kSlopeMax), 3), 1.0f,
+            qAttr));
+        group->addChild(std::make_unique<juce::AudioParameterInt>(
+            juce::ParameterID{ids::slotOrder(i), kParameterVersion}, name + " order", kPassOrderMin,
+            kPassOrderMax, 2,
+            juce::AudioParameterIntAttributes().withStringFromValueFunction(
+                [](int v, int)
+                { return juce::String(v) + " (" + juce::String(6 * v) + " dB/oct)"; })));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::slotAlign(i), kParameterVersion}, name + " alignment",
+            juce::StringArray{"Butterworth", "Linkwitz-Riley", "Resonant (order 2, uses Q)"}, 0));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::slotChan(i), kParameterVersion}, name + " channels",
+            juce::StringArray{"Both", "Left", "Right", "Mid", "Side"}, 0));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::slotDesign(i), kParameterVersion}, name + " design",
+            juce::StringArray{"Accurate", "Bilinear"}, 0));
         layout.add(std::move(group));
     }
 
@@ -162,31 +210,66 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
         s.freq = state.getRawParameterValue(ids::slotFreq(i));
         s.gain = state.getRawParameterValue(ids::slotGain(i));
         s.q = state.getRawParameterValue(ids::slotQ(i));
-        jassert(s.on && s.freq && s.gain && s.q);
+        s.type = state.getRawParameterValue(ids::slotType(i));
+        s.slope = state.getRawParameterValue(ids::slotSlope(i));
+        s.order = state.getRawParameterValue(ids::slotOrder(i));
+        s.align = state.getRawParameterValue(ids::slotAlign(i));
+        s.chan = state.getRawParameterValue(ids::slotChan(i));
+        s.design = state.getRawParameterValue(ids::slotDesign(i));
+        jassert(s.on && s.freq && s.gain && s.q && s.type && s.slope && s.order && s.align &&
+                s.chan && s.design);
     }
     outputGainDb = state.getRawParameterValue(ids::outputGain);
     protectOn = state.getRawParameterValue(ids::protectOn);
     protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
 }
 
+namespace
+{
+int choiceIndex(const std::atomic<float>* p, int count) noexcept
+{
+    return juce::jlimit(0, count - 1,
+                        static_cast<int>(std::lround(p->load(std::memory_order_relaxed))));
+}
+} // namespace
+
 void ParameterRefs::readChain(dsp::ChainSpec& out) const noexcept
 {
+    using T = dsp::StageType;
     out.numStages = kNumSectionSlots;
     for (int i = 0; i < kNumSectionSlots; ++i)
     {
         const auto& s = slots[static_cast<std::size_t>(i)];
         auto& st = out.stages[static_cast<std::size_t>(i)];
-        st.type = dsp::StageType::peaking;
+        st.type = static_cast<T>(choiceIndex(s.type, dsp::kNumStageTypes));
         st.enabled = s.on->load(std::memory_order_relaxed) > 0.5f;
         st.freqHz = s.freq->load(std::memory_order_relaxed);
         st.gainDb = s.gain->load(std::memory_order_relaxed);
         st.q = s.q->load(std::memory_order_relaxed);
+        st.slope = s.slope->load(std::memory_order_relaxed);
+        st.order = choiceIndex(s.order, 9);
+        st.channels = static_cast<dsp::ChannelMode>(choiceIndex(s.chan, dsp::kNumChannelModes));
+        st.design = static_cast<dsp::DesignMode>(choiceIndex(s.design, 2));
+        st.alignment = dsp::PassAlignment::butterworth;
+        if (st.type == T::highPass || st.type == T::lowPass)
+        {
+            const auto align = static_cast<SlotAlignment>(choiceIndex(s.align, 3));
+            if (align == SlotAlignment::linkwitzRiley)
+                st.alignment = dsp::PassAlignment::linkwitzRiley;
+            // The slot's Q shapes the corner only in resonant mode (order 2); otherwise the
+            // alignment's own Q.
+            if (!(align == SlotAlignment::resonant && st.order == 2))
+                st.q = 0.0;
+        }
+        else if (st.type == T::allPass)
+            st.order = juce::jlimit(1, 2, st.order);
     }
 }
 
 bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorValueTreeState& state,
                             juce::String& error)
 {
+    using T = dsp::StageType;
     if (chain.numStages > kNumSectionSlots)
     {
         error = "the chain has " + juce::String(chain.numStages) + " stages; the plugin has " +
@@ -200,39 +283,47 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
     };
     for (int i = 0; i < kNumSectionSlots; ++i)
     {
+        dsp::StageSpec s;
         if (i < chain.numStages)
-        {
-            const auto& s = chain.stages[static_cast<std::size_t>(i)];
-            set(ids::slotOn(i), s.enabled ? 1.0f : 0.0f);
-            set(ids::slotFreq(i), static_cast<float>(s.freqHz));
-            set(ids::slotGain(i), static_cast<float>(s.gainDb));
-            set(ids::slotQ(i), static_cast<float>(s.q));
-        }
+            s = chain.stages[static_cast<std::size_t>(i)];
         else
         {
-            set(ids::slotOn(i), 0.0f);
-            set(ids::slotFreq(i), static_cast<float>(defaultSlotFreqHz(i)));
-            set(ids::slotGain(i), 0.0f);
-            set(ids::slotQ(i), 1.0f);
+            s.enabled = false;
+            s.freqHz = defaultSlotFreqHz(i);
         }
+        const bool passType = s.type == T::highPass || s.type == T::lowPass;
+        SlotAlignment align = s.alignment == dsp::PassAlignment::linkwitzRiley
+                                  ? SlotAlignment::linkwitzRiley
+                                  : SlotAlignment::butterworth;
+        float q = static_cast<float>(s.q);
+        if (passType)
+        {
+            if (s.q > 0.0 && s.order == 2)
+                align = SlotAlignment::resonant;
+            else
+                q = 1.0f;
+        }
+        set(ids::slotOn(i), s.enabled ? 1.0f : 0.0f);
+        set(ids::slotType(i), static_cast<float>(static_cast<int>(s.type)));
+        set(ids::slotFreq(i), static_cast<float>(s.freqHz));
+        set(ids::slotGain(i), static_cast<float>(s.gainDb));
+        set(ids::slotQ(i), q);
+        set(ids::slotSlope(i), static_cast<float>(s.slope));
+        set(ids::slotOrder(i), static_cast<float>(s.order));
+        set(ids::slotAlign(i), static_cast<float>(static_cast<int>(align)));
+        set(ids::slotChan(i), static_cast<float>(static_cast<int>(s.channels)));
+        set(ids::slotDesign(i), static_cast<float>(static_cast<int>(s.design)));
     }
     return true;
 }
 
 dsp::ChainSpec chainFromParameters(const juce::AudioProcessorValueTreeState& state)
 {
-    dsp::ChainSpec chain;
-    for (int i = 0; i < kNumSectionSlots; ++i)
-    {
-        if (*state.getRawParameterValue(ids::slotOn(i)) < 0.5f)
-            continue;
-        dsp::StageSpec s;
-        s.type = dsp::StageType::peaking;
-        s.freqHz = *state.getRawParameterValue(ids::slotFreq(i));
-        s.gainDb = *state.getRawParameterValue(ids::slotGain(i));
-        s.q = *state.getRawParameterValue(ids::slotQ(i));
-        chain.push(s);
-    }
+    dsp::ChainSpec all, chain;
+    ParameterRefs(const_cast<juce::AudioProcessorValueTreeState&>(state)).readChain(all);
+    for (int i = 0; i < all.numStages; ++i)
+        if (all.stages[static_cast<std::size_t>(i)].enabled)
+            chain.push(all.stages[static_cast<std::size_t>(i)]);
     return chain;
 }
 

@@ -9,6 +9,15 @@
 namespace kerf
 {
 
+/// Choices of the alignment parameter: the two alignments, and a resonant order-2 corner
+/// whose Q is the slot's Q.
+enum class SlotAlignment
+{
+    butterworth,
+    linkwitzRiley,
+    resonant,
+};
+
 /// Parameter-layout version hint passed to juce::ParameterID.
 inline constexpr int kParameterVersion = 1;
 /// Section slots the plugin offers.
@@ -17,10 +26,16 @@ inline constexpr int kNumSectionSlots = 24;
 /// Parameter IDs. Host automation and saved sessions refer to these strings: never rename.
 namespace ids
 {
-juce::String slotOn(int slot);   ///< "sec01_on"
-juce::String slotFreq(int slot); ///< "sec01_freq"
-juce::String slotGain(int slot); ///< "sec01_gain"
-juce::String slotQ(int slot);    ///< "sec01_q"
+juce::String slotOn(int slot);     ///< "sec01_on"
+juce::String slotFreq(int slot);   ///< "sec01_freq"
+juce::String slotGain(int slot);   ///< "sec01_gain"
+juce::String slotQ(int slot);      ///< "sec01_q"
+juce::String slotType(int slot);   ///< "sec01_type"
+juce::String slotSlope(int slot);  ///< "sec01_slope"
+juce::String slotOrder(int slot);  ///< "sec01_order"
+juce::String slotAlign(int slot);  ///< "sec01_align"
+juce::String slotChan(int slot);   ///< "sec01_chan"
+juce::String slotDesign(int slot); ///< "sec01_design"
 inline const juce::String outputGain = "out_gain";
 inline const juce::String protectOn = "protect_on";
 inline const juce::String protectCeiling = "protect_ceiling";
@@ -41,6 +56,12 @@ struct ParameterRefs
         std::atomic<float>* freq = nullptr;
         std::atomic<float>* gain = nullptr;
         std::atomic<float>* q = nullptr;
+        std::atomic<float>* type = nullptr;
+        std::atomic<float>* slope = nullptr;
+        std::atomic<float>* order = nullptr;
+        std::atomic<float>* align = nullptr;
+        std::atomic<float>* chan = nullptr;
+        std::atomic<float>* design = nullptr;
     };
     std::array<Slot, kNumSectionSlots> slots{};
     std::atomic<float>* outputGainDb = nullptr;

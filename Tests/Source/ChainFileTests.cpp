@@ -105,3 +105,73 @@ TEST_CASE("chain file: every factory preset parses and names itself", "[chain]")
     }
     CHECK(factoryPresets().size() == files.size());
 }
+
+namespace
+{
+const char* kEveryType = R"({"format": "kerf-chain", "version": 1, "stages": [
+  {"type": "high_pass", "freq_hz": 60, "order": 4, "alignment": "linkwitz_riley"},
+  {"type": "low_shelf", "freq_hz": 150, "gain_db": 4, "slope": 0.8, "channels": "left"},
+  {"type": "peaking", "freq_hz": 900, "gain_db": -7, "q": 3, "design": "bilinear"},
+  {"type": "notch", "freq_hz": 3000, "q": 6, "channels": "mid"},
+  {"type": "band_pass", "freq_hz": 2000, "q": 0.3, "channels": "side"},
+  {"type": "all_pass", "freq_hz": 500, "order": 1},
+  {"type": "tilt", "freq_hz": 1200, "gain_db": 3, "channels": "right"},
+  {"type": "high_shelf", "freq_hz": 9000, "gain_db": -5},
+  {"type": "low_pass", "freq_hz": 16000, "order": 2, "q": 2.5, "enabled": false}]})";
+} // namespace
+
+TEST_CASE("chain file: every section type and its fields", "[chain]")
+{
+    // Source: the stage-type table in README.md (kerf-chain v1).
+    using namespace kerf::dsp;
+    const auto r = parseChainJson(kEveryType);
+    INFO(r.error);
+    REQUIRE(r.ok);
+    REQUIRE(r.chain.numStages == 9);
+    const auto& s = r.chain.stages;
+    CHECK(s[0].type == StageType::highPass);
+    CHECK(s[0].order == 4);
+    CHECK(s[0].alignment == PassAlignment::linkwitzRiley);
+    CHECK(s[0].q == 0.0); // the alignment's own Q
+    CHECK(s[1].channels == ChannelMode::left);
+    CHECK(s[1].slope == 0.8);
+    CHECK(s[2].design == DesignMode::bilinear);
+    CHECK(s[3].channels == ChannelMode::mid);
+    CHECK(s[4].channels == ChannelMode::side);
+    CHECK(s[5].order == 1);
+    CHECK(s[6].type == StageType::tilt);
+    CHECK(s[7].slope == 1.0); // default
+    CHECK(s[8].q == 2.5);
+    CHECK_FALSE(s[8].enabled);
+
+    // Written and read back: every field identical.
+    const auto back = parseChainJson(chainToJson(r.chain));
+    REQUIRE(back.ok);
+    for (int i = 0; i < 9; ++i)
+        CHECK(back.chain.stages[i] == r.chain.stages[i]);
+}
+
+TEST_CASE("chain file: per-type field errors", "[chain]")
+{
+    // Source: README.md chain-file reference (ranges and per-type fields).
+    auto err = [](const char* stage)
+    {
+        const auto r = parseChainJson(
+            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
+        REQUIRE_FALSE(r.ok);
+        return r.error;
+    };
+    CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "order": 3, "alignment": "linkwitz_riley"})")
+              .contains("even order"));
+    CHECK(err(R"({"type": "low_pass", "freq_hz": 80, "order": 4, "q": 2})").contains("'q'"));
+    CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "order": 9})").contains("'order'"));
+    CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "order": 2.5})").contains("whole number"));
+    CHECK(err(R"({"type": "low_shelf", "freq_hz": 80, "slope": 3})").contains("'slope'"));
+    CHECK(err(R"({"type": "notch", "freq_hz": 80, "gain_db": 3})").contains("'gain_db'"));
+    CHECK(
+        err(R"({"type": "peaking", "freq_hz": 80, "channels": "centre"})").contains("'channels'"));
+    CHECK(err(R"({"type": "peaking", "freq_hz": 80, "design": "exact"})").contains("'design'"));
+    CHECK(err(R"({"type": "all_pass", "freq_hz": 80, "order": 3})").contains("'order'"));
+    CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "alignment": "bessel"})")
+              .contains("'alignment'"));
+}

@@ -39,7 +39,7 @@ TEST_CASE("plugin: state round trip restores every parameter exactly", "[plugin]
     const auto pa = a.getParameters();
     const auto pb = b.getParameters();
     REQUIRE(pa.size() == pb.size());
-    REQUIRE(pa.size() == kNumSectionSlots * 4 + 3);
+    REQUIRE(pa.size() == kNumSectionSlots * 10 + 3);
     for (int i = 0; i < pa.size(); ++i)
     {
         auto* ra = dynamic_cast<juce::RangedAudioParameter*>(pa[i]);
@@ -164,4 +164,58 @@ TEST_CASE("plugin: export then import of a chain restores the same chain", "[plu
     CHECK(back.stages[0].freqHz == Approx(1000.0).epsilon(1e-6));
     CHECK(back.stages[1].gainDb == Approx(-3.5).epsilon(1e-6));
     CHECK(back.stages[1].q == Approx(2.0).epsilon(1e-6));
+}
+
+TEST_CASE("plugin: every section type imports, exports and processes as the Dsp chain", "[plugin]")
+{
+    // Project invariant: plugin path == Dsp path, and import/export keeps every field.
+    JuceGuard guard;
+    const auto parsed = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "high_pass", "freq_hz": 60, "order": 4, "alignment": "linkwitz_riley"},
+      {"type": "low_shelf", "freq_hz": 150, "gain_db": 4, "slope": 0.8, "channels": "left"},
+      {"type": "peaking", "freq_hz": 900, "gain_db": -7, "q": 3, "design": "bilinear"},
+      {"type": "notch", "freq_hz": 3000, "q": 6, "channels": "mid"},
+      {"type": "band_pass", "freq_hz": 2000, "q": 0.5, "channels": "side"},
+      {"type": "all_pass", "freq_hz": 500, "order": 1},
+      {"type": "tilt", "freq_hz": 1200, "gain_db": 3, "channels": "right"},
+      {"type": "high_shelf", "freq_hz": 9000, "gain_db": -5},
+      {"type": "low_pass", "freq_hz": 16000, "order": 2, "q": 2.5}]})");
+    REQUIRE(parsed.ok);
+    KerfProcessor p;
+    CHECK(p.importChain(parsed.chain).isEmpty());
+    const auto back = p.exportChain();
+    REQUIRE(back.numStages == parsed.chain.numStages);
+    for (int i = 0; i < back.numStages; ++i)
+    {
+        const auto& a = back.stages[i];
+        const auto& b = parsed.chain.stages[i];
+        INFO("stage " << i);
+        CHECK(a.type == b.type);
+        CHECK(a.freqHz == Approx(b.freqHz).epsilon(1e-6));
+        CHECK(a.order == b.order);
+        CHECK(a.alignment == b.alignment);
+        CHECK(a.channels == b.channels);
+        CHECK(a.design == b.design);
+        CHECK(a.q == Approx(b.q).epsilon(1e-6));
+    }
+    p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
+    p.setPlayConfigDetails(2, 2, 48000.0, 1024);
+    p.prepareToPlay(48000.0, 1024);
+    juce::AudioBuffer<float> buffer(2, 1024);
+    buffer.clear();
+    buffer.setSample(0, 0, 0.5f);
+    buffer.setSample(1, 0, 0.25f);
+    juce::MidiBuffer midi;
+    p.processBlock(buffer, midi);
+    kerf::dsp::ChainProcessor direct;
+    direct.prepare(48000.0, 1024, 2);
+    direct.setChain(back);
+    juce::AudioBuffer<float> expected(2, 1024);
+    expected.clear();
+    expected.setSample(0, 0, 0.5f);
+    expected.setSample(1, 0, 0.25f);
+    direct.process(expected.getArrayOfWritePointers(), 2, 1024);
+    for (int ch = 0; ch < 2; ++ch)
+        for (int i = 0; i < 1024; ++i)
+            CHECK(buffer.getSample(ch, i) == expected.getSample(ch, i));
 }
