@@ -138,7 +138,7 @@ Dual evaluateView(const std::vector<DesignedStage>& stages, double omega, Channe
     return t[0][0];
 }
 
-bool viewIsProduct(const ChainSpec& chain, ChannelView view)
+bool viewIsProductImpl(const ChainSpec& chain, ChannelView view)
 {
     bool hasLeftRight = false;
     for (int i = 0; i < chain.numStages; ++i)
@@ -170,6 +170,16 @@ bool stageInProductView(ChannelMode mode, ChannelView view)
 }
 } // namespace
 
+bool viewIsProduct(const ChainSpec& chain, ChannelView view) noexcept
+{
+    return viewIsProductImpl(chain, view);
+}
+
+bool stageInView(ChannelMode mode, ChannelView view) noexcept
+{
+    return stageInProductView(mode, view);
+}
+
 std::complex<double> evaluateSection(const BiquadCoeffs& c, double omega) noexcept
 {
     const cd z1 = std::polar(1.0, -omega);
@@ -197,7 +207,7 @@ std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz, 
                                    ChannelView view) noexcept
 {
     const double omega = 2.0 * kPi * freqHz / sampleRateHz;
-    if (viewIsProduct(chain, view))
+    if (viewIsProductImpl(chain, view))
     {
         cd h = 1.0;
         for (int i = 0; i < chain.numStages; ++i)
@@ -254,7 +264,7 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
 {
     if (count <= 0)
         return;
-    if (!viewIsProduct(chain, view))
+    if (!viewIsProductImpl(chain, view))
     {
         const auto points =
             chainResponse(chain, sampleRateHz, std::vector<double>(freqsHz, freqsHz + count), view);
@@ -262,13 +272,7 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
             magnitudeDbOut[i] = points[static_cast<std::size_t>(i)].magnitudeDb;
         return;
     }
-    const auto n = static_cast<std::size_t>(count);
-    std::vector<double> phi(n), num(n, 1.0), den(n, 1.0);
-    for (std::size_t i = 0; i < n; ++i)
-    {
-        const double s = std::sin(kPi * freqsHz[i] / sampleRateHz);
-        phi[i] = s * s;
-    }
+    std::vector<BiquadCoeffs> sections;
     for (int st = 0; st < chain.numStages; ++st)
     {
         const auto& spec = chain.stages[static_cast<std::size_t>(st)];
@@ -276,25 +280,43 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
             continue;
         const StageSections s = designStage(spec, sampleRateHz);
         for (int j = 0; j < s.count; ++j)
+            sections.push_back(s.sections[static_cast<std::size_t>(j)]);
+    }
+    sectionsMagnitudeDb(sections.data(), static_cast<int>(sections.size()), sampleRateHz, freqsHz,
+                        magnitudeDbOut, count);
+}
+
+void sectionsMagnitudeDb(const BiquadCoeffs* sections, int numSections, double sampleRateHz,
+                         const double* freqsHz, double* magnitudeDbOut, int count)
+{
+    if (count <= 0)
+        return;
+    const auto n = static_cast<std::size_t>(count);
+    std::vector<double> phi(n), num(n, 1.0), den(n, 1.0);
+    for (std::size_t i = 0; i < n; ++i)
+    {
+        const double s = std::sin(kPi * freqsHz[i] / sampleRateHz);
+        phi[i] = s * s;
+    }
+    for (int j = 0; j < numSections; ++j)
+    {
+        const BiquadCoeffs& c = sections[j];
+        // |b0 + b1 z^-1 + b2 z^-2|^2 = (b0+b1+b2)^2 - 4(b0 b1 + b1 b2 + 4 b0 b2) phi
+        //                              + 16 b0 b2 phi^2, phi = sin^2(omega/2).
+        const double nb = (c.b0 + c.b1 + c.b2) * (c.b0 + c.b1 + c.b2);
+        const double n1 = -4.0 * (c.b0 * c.b1 + c.b1 * c.b2 + 4.0 * c.b0 * c.b2);
+        const double n2 = 16.0 * c.b0 * c.b2;
+        const double da = (1.0 + c.a1 + c.a2) * (1.0 + c.a1 + c.a2);
+        const double d1 = -4.0 * (c.a1 + c.a1 * c.a2 + 4.0 * c.a2);
+        const double d2 = 16.0 * c.a2;
+        double* __restrict pn = num.data();
+        double* __restrict pd = den.data();
+        const double* __restrict pp = phi.data();
+        for (std::size_t i = 0; i < n; ++i)
         {
-            const BiquadCoeffs& c = s.sections[static_cast<std::size_t>(j)];
-            // |b0 + b1 z^-1 + b2 z^-2|^2 = (b0+b1+b2)^2 - 4(b0 b1 + b1 b2 + 4 b0 b2) phi
-            //                              + 16 b0 b2 phi^2, phi = sin^2(omega/2).
-            const double nb = (c.b0 + c.b1 + c.b2) * (c.b0 + c.b1 + c.b2);
-            const double n1 = -4.0 * (c.b0 * c.b1 + c.b1 * c.b2 + 4.0 * c.b0 * c.b2);
-            const double n2 = 16.0 * c.b0 * c.b2;
-            const double da = (1.0 + c.a1 + c.a2) * (1.0 + c.a1 + c.a2);
-            const double d1 = -4.0 * (c.a1 + c.a1 * c.a2 + 4.0 * c.a2);
-            const double d2 = 16.0 * c.a2;
-            double* __restrict pn = num.data();
-            double* __restrict pd = den.data();
-            const double* __restrict pp = phi.data();
-            for (std::size_t i = 0; i < n; ++i)
-            {
-                const double p = pp[i];
-                pn[i] *= nb + p * (n1 + p * n2);
-                pd[i] *= da + p * (d1 + p * d2);
-            }
+            const double p = pp[i];
+            pn[i] *= nb + p * (n1 + p * n2);
+            pd[i] *= da + p * (d1 + p * d2);
         }
     }
     constexpr double floorSquared = kFloorMagnitude * kFloorMagnitude;

@@ -24,6 +24,12 @@ enum class ChannelView
     side,
 };
 
+/// True when the view's path is a plain product of stage responses (no mid/side stage, and no
+/// left/right stage seen through a mid/side view); then stageInView() says which stages count.
+bool viewIsProduct(const ChainSpec& chain, ChannelView view) noexcept;
+/// Whether a stage with this channel mode lies on a product view's path.
+bool stageInView(ChannelMode mode, ChannelView view) noexcept;
+
 /// H(e^{j omega}) of one section; omega in radians per sample.
 std::complex<double> evaluateSection(const BiquadCoeffs& c, double omega) noexcept;
 
@@ -57,6 +63,12 @@ std::vector<ResponsePoint> chainResponse(const ChainSpec& chain, double sampleRa
 /// mid/side stage makes the view a sum rather than a product.
 void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double* freqsHz,
                       double* magnitudeDbOut, int count, ChannelView view = ChannelView::left);
+
+/// Magnitude in dB of a product of sections, the kernel of chainMagnitudeDb: one sine per
+/// frequency, then ten real operations per section and frequency, vectorised across
+/// frequencies. Non-realtime (allocates scratch).
+void sectionsMagnitudeDb(const BiquadCoeffs* sections, int numSections, double sampleRateHz,
+                         const double* freqsHz, double* magnitudeDbOut, int count);
 
 /// n log-spaced frequencies from lowHz to highHz inclusive.
 std::vector<double> logSpacedFrequencies(double lowHz, double highHz, int n);

@@ -64,6 +64,7 @@ const char* const kMainHelp =
 Usage:
   kerf render IN OUT --chain FILE [--bits 32|24|16]
   kerf response --chain FILE [--rate HZ] [--points N | --freqs F1,F2,...] [--format csv|json]
+                [--channel left|right|mid|side] [--poles] [--plot FILE.png]
   kerf SUBCOMMAND --help
   kerf --help | --version
 

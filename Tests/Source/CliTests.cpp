@@ -279,3 +279,42 @@ TEST_CASE("cli: response prints the documented CSV and JSON", "[cli]")
     CHECK(runKerf({"response", "--help"}).output.contains("Usage: kerf response"));
     CHECK(runKerf({"bogus"}).exitCode == 2);
 }
+
+TEST_CASE("cli: response --poles, --channel and --plot", "[cli]")
+{
+    // Source: output formats documented in README.md; PNG signature from the PNG
+    // specification (ISO/IEC 15948: 89 50 4E 47 0D 0A 1A 0A).
+    TempDir t;
+    t["chain.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "high_pass", "freq_hz": 80, "order": 3},
+      {"type": "peaking", "freq_hz": 1000, "gain_db": 6, "q": 1, "channels": "left"}]})");
+    auto r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--poles"});
+    REQUIRE(r.exitCode == 0);
+    const auto json = juce::JSON::parse(r.output);
+    REQUIRE(json["stages"].isArray());
+    CHECK(json["stages"].size() == 2);
+    CHECK(json["stages"][0]["poles"].size() == 3); // third order: three poles
+    CHECK(json["chain"]["poles"].size() == 5);     // left path: both stages
+    r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--poles", "--channel",
+                 "right"});
+    CHECK(juce::JSON::parse(r.output)["chain"]["poles"].size() == 3); // right path: high-pass only
+
+    r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--freqs", "1000",
+                 "--channel", "right", "--format", "json"});
+    const double right1k = juce::JSON::parse(r.output)["points"][0]["magnitude_db"];
+    r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--freqs", "1000",
+                 "--channel", "left", "--format", "json"});
+    const double left1k = juce::JSON::parse(r.output)["points"][0]["magnitude_db"];
+    CHECK(left1k - right1k == Approx(6.0).margin(0.01)); // peaking gain at f0 on the left only
+
+    r = runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--plot",
+                 t["plot.png"].getFullPathName()});
+    REQUIRE(r.exitCode == 0);
+    juce::MemoryBlock png;
+    REQUIRE(t["plot.png"].loadFileAsData(png));
+    REQUIRE(png.getSize() > 10000);
+    const unsigned char signature[] = {0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a};
+    CHECK(std::memcmp(png.getData(), signature, 8) == 0);
+    CHECK(runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--channel", "centre"})
+              .exitCode == 2);
+}

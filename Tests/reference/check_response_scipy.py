@@ -48,7 +48,8 @@ def main():
     failures = 0
     for fs in (44100.0, 48000.0, 96000.0):
         chain = {"format": "kerf-chain", "version": 1, "stages": [
-            {"type": "peaking", "freq_hz": f, "gain_db": g, "q": q, "enabled": True}
+            {"type": "peaking", "freq_hz": f, "gain_db": g, "q": q, "design": "bilinear",
+             "enabled": True}
             for (f, g, q) in STAGES]}
         freqs = np.geomspace(10.0, 0.499 * fs, 200)
         with tempfile.NamedTemporaryFile("w", suffix=".json", delete=False) as tf:

@@ -1,0 +1,33 @@
+#!/usr/bin/python3
+"""Prints medians from a Google Benchmark JSON file and the ratios the issues ask for."""
+import json
+import platform
+import sys
+
+# (ours, peer, what the bar is)
+PAIRS = [
+    ("BM_KerfChain24Stereo", "BM_JuceIirChain24Stereo",
+     "24 stereo peaking sections, 512-sample blocks: Kerf throughput / JUCE IIR (bar >= 2)"),
+    ("BM_KerfResponse2048", "BM_JuceMagnitude2048",
+     "chain magnitude at 2048 frequencies: Kerf speed / JUCE getMagnitudeForFrequency (bar >= 20)"),
+]
+
+data = json.load(open(sys.argv[1]))
+ctx = data.get("context", {})
+print(f"machine: {platform.processor() or platform.machine()}, {ctx.get('num_cpus')} cpus, "
+      f"{ctx.get('mhz_per_cpu')} MHz, load {ctx.get('load_avg')}")
+medians = {}
+for b in data["benchmarks"]:
+    if b.get("aggregate_name") == "median":
+        name = b["run_name"]
+        medians[name] = b
+        extra = {k: v for k, v in b.items() if k not in (
+            "name", "run_name", "run_type", "repetitions", "repetition_index", "threads",
+            "aggregate_name", "aggregate_unit", "iterations", "real_time", "cpu_time",
+            "time_unit", "family_index", "per_family_instance_index")}
+        print(f"  {name}: median real {b['real_time']:.1f} {b['time_unit']}, "
+              f"cpu {b['cpu_time']:.1f} {b['time_unit']} {extra if extra else ''}")
+for ours, peer, what in PAIRS:
+    if ours in medians and peer in medians:
+        ratio = medians[peer]["cpu_time"] / medians[ours]["cpu_time"]
+        print(f"  {what}: {ratio:.2f}x")
