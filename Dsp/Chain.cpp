@@ -6,9 +6,10 @@
 #include "Design/Tilt.h"
 
 #include <algorithm>
+#include <atomic>
 
-#if defined(__SSE__) || defined(_M_X64)
-#include <xmmintrin.h>
+#if defined(__SSE2__)
+#include <immintrin.h>
 #define KERF_HAS_SSE 1
 #endif
 
@@ -130,7 +131,9 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
 
 void ChainProcessor::reset() noexcept
 {
-    for (auto& channel : state)
+    for (auto& s : pairState)
+        s = PairState{};
+    for (auto& channel : extraState)
         for (auto& s : channel)
             s.reset();
 }
@@ -158,13 +161,24 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
         const int base = i * kMaxSectionsPerStage;
         for (int j = 0; j < designed.count; ++j)
         {
-            coeffs[static_cast<std::size_t>(base + j)] =
-                toSvf(designed.sections[static_cast<std::size_t>(j)]);
+            const auto idx = static_cast<std::size_t>(base + j);
+            const SvfCoeffs c = toSvf(designed.sections[static_cast<std::size_t>(j)]);
+            coeffs[idx] = c;
+            // y = mHigh (v0 - k v1 - v2) + mBand v1 + mLow v2, folded.
+            const double folded[6] = {
+                c.a1, c.a2, c.g, c.mHigh, c.mBand - c.mHigh * c.k, c.mLow - c.mHigh};
+            PairCoeffs& pc = pairCoeffs[idx];
+            double* lanes[6] = {pc.a1, pc.a2, pc.g, pc.c0, pc.c1, pc.c2};
+            for (int m = 0; m < 6; ++m)
+                lanes[m][0] = lanes[m][1] = folded[m];
             // A section that was not running (stage off, or fewer sections before) starts
             // from rest; running ones keep their memories.
             if (!wasActive || j >= st.count)
-                for (auto& channel : state)
-                    channel[static_cast<std::size_t>(base + j)].reset();
+            {
+                pairState[idx] = PairState{};
+                for (auto& channel : extraState)
+                    channel[idx].reset();
+            }
         }
         st.spec = spec;
         st.count = designed.count;
@@ -175,76 +189,151 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
     numStages = n;
 }
 
-namespace
+void ChainProcessor::runSections(int channel, int firstSection, int count, double* x,
+                                 int len) noexcept
 {
-/// Runs sections [first, first + count) over one channel's samples.
-void runSections(const SvfCoeffs* c, SvfState* st, int count, double* x, int len) noexcept
-{
-    for (int j = 0; j < count; ++j)
+    for (int j = firstSection; j < firstSection + count; ++j)
     {
-        const SvfCoeffs k = c[j];
-        SvfState s = st[j];
+        const auto idx = static_cast<std::size_t>(j);
+        const SvfCoeffs k = coeffs[idx];
+        SvfState s;
+        if (channel < 2)
+            s = {pairState[idx].ic1[channel], pairState[idx].ic2[channel]};
+        else
+            s = extraState[static_cast<std::size_t>(channel - 2)][idx];
         for (int n = 0; n < len; ++n)
             x[n] = processSvf(k, s, x[n]);
-        st[j] = s;
+        if (channel < 2)
+        {
+            pairState[idx].ic1[channel] = s.ic1eq;
+            pairState[idx].ic2[channel] = s.ic2eq;
+        }
+        else
+            extraState[static_cast<std::size_t>(channel - 2)][idx] = s;
     }
 }
 
-#if defined(__GNUC__)
-typedef double Pair __attribute__((vector_size(16)));
-
-/// One sample pair through one section, both channels in one vector register.
-inline Pair processSvfPair(const SvfCoeffs& k, SvfState& sl, SvfState& sr, Pair v0) noexcept
+namespace
 {
-    const Pair ic1 = {sl.ic1eq, sr.ic1eq};
-    const Pair ic2 = {sl.ic2eq, sr.ic2eq};
-    const Pair v3 = v0 - ic2;
-    const Pair v1 = k.a1 * ic1 + k.a2 * v3;
-    const Pair v2 = ic2 + k.a2 * ic1 + k.a3 * v3;
-    const Pair n1 = 2.0 * v1 - ic1;
-    const Pair n2 = 2.0 * v2 - ic2;
-    sl.ic1eq = n1[0];
-    sr.ic1eq = n1[1];
-    sl.ic2eq = n2[0];
-    sr.ic2eq = n2[1];
-    const Pair high = v0 - k.k * v1 - v2;
-    return k.mHigh * high + k.mBand * v1 + k.mLow * v2;
+/// The stereo kernel's view of one section: coefficient lanes and state lanes.
+struct StretchSection
+{
+    const double* coeffs; // a1, a2, g, c0, c1, c2 pairs
+    double* state;        // ic1, ic2 pairs
+};
+
+/// One section step of the stereo kernel (Simper 2013, output mix folded):
+/// v1 = a1 ic1 + a2 (v0 - ic2), v2 = ic2 + g v1, ic1 <- 2 v1 - ic1, ic2 <- 2 v2 - ic2,
+/// y = c0 v0 + c1 v1 + c2 v2. `Fma` selects fused multiply-adds.
+#if defined(__SSE2__)
+#define KERF_SECTION_STEP(MUL_ADD)                                                                 \
+    {                                                                                              \
+        const __m128d ic1 = _mm_load_pd(st), ic2 = _mm_load_pd(st + 2);                            \
+        const __m128d v3 = _mm_sub_pd(v, ic2);                                                     \
+        const __m128d v1 = MUL_ADD(_mm_load_pd(c + 2), v3, _mm_mul_pd(_mm_load_pd(c), ic1));       \
+        const __m128d v2 = MUL_ADD(_mm_load_pd(c + 4), v1, ic2);                                   \
+        _mm_store_pd(st, _mm_sub_pd(_mm_add_pd(v1, v1), ic1));                                     \
+        _mm_store_pd(st + 2, _mm_sub_pd(_mm_add_pd(v2, v2), ic2));                                 \
+        v = MUL_ADD(_mm_load_pd(c + 10), v2,                                                       \
+                    MUL_ADD(_mm_load_pd(c + 8), v1, _mm_mul_pd(_mm_load_pd(c + 6), v)));           \
+    }
+
+inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
+{
+    return _mm_add_pd(_mm_mul_pd(a, b), c);
 }
+
+/// Runs a stretch of sections over both channels (one SSE2 register holds left and right)
+/// in a skewed order: at step t, section j works on sample t - j. The sections of one step
+/// are independent, so the processor overlaps them instead of waiting on each section's
+/// recursion in turn; the fill and drain at the block's ends keep the result exact, with
+/// no added latency. `carry[j]` holds the sample waiting to enter section j.
+#define KERF_STRETCH_BODY(MUL_ADD)                                                                 \
+    const int last = count - 1;                                                                    \
+    for (int t = 0; t < len + last; ++t)                                                           \
+    {                                                                                              \
+        const int jHigh = t < last ? t : last;                                                     \
+        const int jLow = t - len + 1 > 0 ? t - len + 1 : 0;                                        \
+        for (int j = jHigh; j >= jLow; --j)                                                        \
+        {                                                                                          \
+            const int n = t - j;                                                                   \
+            __m128d v = j == 0 ? _mm_set_pd(r[n], l[n]) : carry[j];                                \
+            const double* c = sections[j].coeffs;                                                  \
+            double* st = sections[j].state;                                                        \
+            KERF_SECTION_STEP(MUL_ADD)                                                             \
+            if (j == last)                                                                         \
+            {                                                                                      \
+                l[n] = _mm_cvtsd_f64(v);                                                           \
+                r[n] = _mm_cvtsd_f64(_mm_unpackhi_pd(v, v));                                       \
+            }                                                                                      \
+            else                                                                                   \
+                carry[j + 1] = v;                                                                  \
+        }                                                                                          \
+    }
+
+void stretchKernel(const StretchSection* sections, int count, double* l, double* r, int len,
+                   __m128d* carry) noexcept
+{
+    KERF_STRETCH_BODY(mulAdd)
+}
+
+#if defined(__x86_64__) && defined(__GNUC__)
+/// The same kernel with fused multiply-adds, for processors that have them (chosen once at
+/// run time). FMA rounds once where the plain kernel rounds twice, so results differ in the
+/// last bits between machines, never within one.
+__attribute__((target("fma"))) void
+stretchKernelFma(const StretchSection* sections, int count, double* l, double* r, int len,
+                 __m128d* carry) noexcept {KERF_STRETCH_BODY(_mm_fmadd_pd)}
 #endif
+#undef KERF_STRETCH_BODY
+#undef KERF_SECTION_STEP
+#else
+#error "Kerf's processing kernels need SSE2 (x86-64); add a portable kernel for other CPUs."
+#endif
+
+std::atomic<bool> fmaAllowed{true};
+
+bool hasFma() noexcept
+{
+#if defined(__x86_64__) && defined(__GNUC__)
+    static const bool fma = __builtin_cpu_supports("fma");
+    return fma && fmaAllowed.load(std::memory_order_relaxed);
+#else
+    return false;
+#endif
+}
 } // namespace
+
+void ChainProcessor::allowFusedMultiplyAdd(bool allowed) noexcept
+{
+    fmaAllowed.store(allowed);
+}
 
 void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, int len) noexcept
 {
-#if defined(__GNUC__)
     // Sample by sample through every section of the stretch: consecutive sections are
     // independent at any instant, so their arithmetic overlaps in the CPU's pipeline
-    // instead of waiting on one section's recursion; both channels share the vector.
-    for (int n = 0; n < len; ++n)
-    {
-        Pair v = {l[n], r[n]};
-        for (int s = first; s < end; ++s)
-        {
-            const int base = s * kMaxSectionsPerStage;
-            const int count = stages[static_cast<std::size_t>(s)].count;
-            for (int j = base; j < base + count; ++j)
-                v = processSvfPair(coeffs[static_cast<std::size_t>(j)],
-                                   state[0][static_cast<std::size_t>(j)],
-                                   state[1][static_cast<std::size_t>(j)], v);
-        }
-        l[n] = v[0];
-        r[n] = v[1];
-    }
-#else
+    // instead of waiting on one section's recursion; both channels share one vector.
+    std::array<StretchSection, kMaxSections> list;
+    int count = 0;
     for (int s = first; s < end; ++s)
     {
         const int base = s * kMaxSectionsPerStage;
-        const int count = stages[static_cast<std::size_t>(s)].count;
-        runSections(&coeffs[static_cast<std::size_t>(base)],
-                    &state[0][static_cast<std::size_t>(base)], count, l, len);
-        runSections(&coeffs[static_cast<std::size_t>(base)],
-                    &state[1][static_cast<std::size_t>(base)], count, r, len);
+        for (int j = base; j < base + stages[static_cast<std::size_t>(s)].count; ++j)
+            list[static_cast<std::size_t>(count++)] = {pairCoeffs[static_cast<std::size_t>(j)].a1,
+                                                       pairState[static_cast<std::size_t>(j)].ic1};
+    }
+    if (count == 0)
+        return;
+    __m128d carry[kMaxSections];
+#if defined(__x86_64__) && defined(__GNUC__)
+    if (hasFma())
+    {
+        stretchKernelFma(list.data(), count, l, r, len, carry);
+        return;
     }
 #endif
+    stretchKernel(list.data(), count, l, r, len, carry);
 }
 
 void ChainProcessor::runBlock(int nch, int len) noexcept
@@ -285,28 +374,21 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
                 runStereoStretch(i, end, buf[0], buf[1], len);
             else
                 for (int s = i; s < end; ++s)
-                {
-                    const int base = s * kMaxSectionsPerStage;
                     for (int ch = 0; ch < nch; ++ch)
-                        runSections(
-                            &coeffs[static_cast<std::size_t>(base)],
-                            &state[static_cast<std::size_t>(ch)][static_cast<std::size_t>(base)],
-                            stages[static_cast<std::size_t>(s)].count, buf[ch], len);
-                }
+                        runSections(ch, s * kMaxSectionsPerStage,
+                                    stages[static_cast<std::size_t>(s)].count, buf[ch], len);
             i = end;
             continue;
         }
 
         const int base = i * kMaxSectionsPerStage;
-        const SvfCoeffs* c = &coeffs[static_cast<std::size_t>(base)];
-        SvfState* s0 = &state[0][static_cast<std::size_t>(base)];
         switch (mode)
         {
         case ChannelMode::left:
-            runSections(c, s0, st.count, buf[0], len);
+            runSections(0, base, st.count, buf[0], len);
             break;
         case ChannelMode::right:
-            runSections(c, &state[1][static_cast<std::size_t>(base)], st.count, buf[1], len);
+            runSections(1, base, st.count, buf[1], len);
             break;
         case ChannelMode::mid:
         case ChannelMode::side:
@@ -320,7 +402,8 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
                 l[n] = m;
                 r[n] = sd;
             }
-            runSections(c, s0, st.count, mode == ChannelMode::mid ? l : r, len);
+            // The mid or side signal uses lane 0's memories.
+            runSections(0, base, st.count, mode == ChannelMode::mid ? l : r, len);
             for (int n = 0; n < len; ++n)
             {
                 const double m = l[n], sd = r[n];

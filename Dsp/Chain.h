@@ -109,6 +109,10 @@ public:
     void process(float* const* channels, int numChannels, int numSamples) noexcept;
     void process(double* const* channels, int numChannels, int numSamples) noexcept;
 
+    /// Whether the stereo kernel may use fused multiply-adds where the CPU has them (the
+    /// default). Process-wide; tests turn it off to check the plain SSE2 kernel too.
+    static void allowFusedMultiplyAdd(bool allowed) noexcept;
+
     double sampleRateHz() const noexcept { return sampleRate; }
     /// Second-order sections currently running (all enabled stages).
     int activeSections() const noexcept;
@@ -120,9 +124,22 @@ private:
         bool active = false;
         int count = 0; // sections, stored at [index * kMaxSectionsPerStage, + count)
     };
+    /// A section's coefficients for the stereo kernel, each value in both vector lanes,
+    /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
+    struct alignas(16) PairCoeffs
+    {
+        double a1[2], a2[2], g[2], c0[2], c1[2], c2[2];
+    };
+    /// Integrator memories of channels 0 and 1 side by side (lane = channel).
+    struct alignas(16) PairState
+    {
+        double ic1[2] = {0.0, 0.0}, ic2[2] = {0.0, 0.0};
+    };
+
     template <typename Sample>
     void processImpl(Sample* const* channels, int numChannels, int numSamples) noexcept;
     void runBlock(int numChannels, int len) noexcept;
+    void runSections(int channel, int firstSection, int count, double* x, int len) noexcept;
     void runStereoStretch(int first, int end, double* l, double* r, int len) noexcept;
 
     double sampleRate = 48000.0;
@@ -131,7 +148,9 @@ private:
     int numStages = 0;
     std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSections> coeffs{};
-    std::array<std::array<SvfState, kMaxSections>, kMaxChannels> state{};
+    std::array<PairCoeffs, kMaxSections> pairCoeffs{};
+    std::array<PairState, kMaxSections> pairState{}; // channels 0 and 1
+    std::array<std::array<SvfState, kMaxSections>, kMaxChannels - 2> extraState{}; // 2..7
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
 };
 

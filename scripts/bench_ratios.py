@@ -8,6 +8,8 @@ import sys
 PAIRS = [
     ("BM_KerfChain24Stereo", "BM_JuceIirChain24Stereo",
      "24 stereo peaking sections, 512-sample blocks: Kerf throughput / JUCE IIR (bar >= 2)"),
+    ("BM_KerfChain24StereoNoFma", "BM_JuceIirChain24Stereo",
+     "the same without fused multiply-add (plain SSE2 kernel) / JUCE IIR (bar >= 2)"),
     ("BM_KerfResponse2048", "BM_JuceMagnitude2048",
      "chain magnitude at 2048 frequencies: Kerf speed / JUCE getMagnitudeForFrequency (bar >= 20)"),
 ]

@@ -62,6 +62,15 @@ void BM_KerfChain24Stereo(benchmark::State& state)
 }
 BENCHMARK(BM_KerfChain24Stereo);
 
+/// The plain SSE2 kernel, for machines without fused multiply-add.
+void BM_KerfChain24StereoNoFma(benchmark::State& state)
+{
+    kerf::dsp::ChainProcessor::allowFusedMultiplyAdd(false);
+    BM_KerfChain24Stereo(state);
+    kerf::dsp::ChainProcessor::allowFusedMultiplyAdd(true);
+}
+BENCHMARK(BM_KerfChain24StereoNoFma);
+
 void BM_JuceIirChain24Stereo(benchmark::State& state)
 {
     using Filter = juce::dsp::ProcessorDuplicator<juce::dsp::IIR::Filter<float>,
