@@ -1,0 +1,97 @@
+// Realtime safety: the audio callback never allocates. The test binary replaces the global
+// allocation functions with counting ones that complain while a block is being processed.
+#include "ChainFile.h"
+#include "PluginProcessor.h"
+
+#include <catch2/catch.hpp>
+
+#include <atomic>
+#include <cstdlib>
+#include <new>
+#include <random>
+
+namespace
+{
+thread_local bool inAudioCallback = false;
+std::atomic<int> allocationsInCallback{0};
+
+void* countedAlloc(std::size_t n)
+{
+    if (inAudioCallback)
+        allocationsInCallback.fetch_add(1);
+    if (void* p = std::malloc(n == 0 ? 1 : n))
+        return p;
+    throw std::bad_alloc();
+}
+
+void countedFree(void* p) noexcept
+{
+    if (inAudioCallback && p != nullptr)
+        allocationsInCallback.fetch_add(1);
+    std::free(p);
+}
+} // namespace
+
+void* operator new(std::size_t n)
+{
+    return countedAlloc(n);
+}
+void* operator new[](std::size_t n)
+{
+    return countedAlloc(n);
+}
+void operator delete(void* p) noexcept
+{
+    countedFree(p);
+}
+void operator delete[](void* p) noexcept
+{
+    countedFree(p);
+}
+void operator delete(void* p, std::size_t) noexcept
+{
+    countedFree(p);
+}
+void operator delete[](void* p, std::size_t) noexcept
+{
+    countedFree(p);
+}
+
+TEST_CASE("realtime: processing with changing parameters never allocates", "[plugin]")
+{
+    // Common practice for audio callbacks (no heap allocation on the audio thread); the
+    // parameter changes happen between blocks, as a host's message thread would make them.
+    juce::ScopedJuceInitialiser_GUI init;
+    kerf::KerfProcessor p;
+    const auto parsed = kerf::parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "high_pass", "freq_hz": 60, "order": 8},
+      {"type": "low_shelf", "freq_hz": 150, "gain_db": 4, "channels": "left"},
+      {"type": "peaking", "freq_hz": 900, "gain_db": -7, "q": 3},
+      {"type": "notch", "freq_hz": 3000, "q": 6, "channels": "mid"},
+      {"type": "band_pass", "freq_hz": 2000, "q": 0.5, "channels": "side"},
+      {"type": "tilt", "freq_hz": 1200, "gain_db": 3, "channels": "right"}]})");
+    REQUIRE(parsed.ok);
+    p.importChain(parsed.chain);
+    p.setPlayConfigDetails(2, 2, 48000.0, 256);
+    p.prepareToPlay(48000.0, 256);
+    juce::AudioBuffer<float> buffer(2, 256);
+    juce::MidiBuffer midi;
+    const unsigned seed = 4242u;
+    INFO("seed " << seed);
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<float> u(0.0f, 1.0f);
+    auto params = p.getParameters();
+    for (int block = 0; block < 400; ++block)
+    {
+        for (int k = 0; k < 4; ++k) // a few parameters move before every block
+            params[static_cast<int>(u(rng) * static_cast<float>(params.size() - 1))]
+                ->setValueNotifyingHost(u(rng));
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < 256; ++i)
+                buffer.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
+        inAudioCallback = true;
+        p.processBlock(buffer, midi);
+        inAudioCallback = false;
+    }
+    CHECK(allocationsInCallback.load() == 0);
+}
