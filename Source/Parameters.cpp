@@ -319,8 +319,15 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
 
 dsp::ChainSpec chainFromParameters(const juce::AudioProcessorValueTreeState& state)
 {
+    // ParameterRefs only reads through the pointers it looks up.
+    return chainFromParameters(
+        ParameterRefs(const_cast<juce::AudioProcessorValueTreeState&>(state)));
+}
+
+dsp::ChainSpec chainFromParameters(const ParameterRefs& refs)
+{
     dsp::ChainSpec all, chain;
-    ParameterRefs(const_cast<juce::AudioProcessorValueTreeState&>(state)).readChain(all);
+    refs.readChain(all);
     for (int i = 0; i < all.numStages; ++i)
         if (all.stages[static_cast<std::size_t>(i)].enabled)
             chain.push(all.stages[static_cast<std::size_t>(i)]);

@@ -80,6 +80,7 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
                             juce::String& error);
 
 /// The chain the parameters describe, keeping only the slots that are switched on.
+dsp::ChainSpec chainFromParameters(const ParameterRefs& refs);
 dsp::ChainSpec chainFromParameters(const juce::AudioProcessorValueTreeState& state);
 
 } // namespace kerf

@@ -110,6 +110,11 @@ juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain)
     return error;
 }
 
+dsp::ChainSpec KerfProcessor::exportChain() const
+{
+    return chainFromParameters(refs);
+}
+
 void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)
 {
     auto tree = parameters.copyState();

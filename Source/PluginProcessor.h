@@ -48,7 +48,7 @@ public:
     /// Loads a chain into the parameters (message thread). Returns an error text or "".
     juce::String importChain(const dsp::ChainSpec& chain);
     /// The chain the current parameters describe.
-    dsp::ChainSpec exportChain() const { return chainFromParameters(parameters); }
+    dsp::ChainSpec exportChain() const;
 
     juce::AudioProcessorValueTreeState& state() noexcept { return parameters; }
     /// Samples the output protection has changed since the last call.
