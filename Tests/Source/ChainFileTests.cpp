@@ -1,5 +1,6 @@
 // Chain files: the documented format (README.md, "Chain files") and its error messages.
 #include "ChainFile.h"
+#include "ExampleChains.h"
 #include "FactoryPresets.h"
 
 #include <catch2/catch.hpp>
@@ -106,25 +107,11 @@ TEST_CASE("chain file: every factory preset parses and names itself", "[chain]")
     CHECK(factoryPresets().size() == files.size());
 }
 
-namespace
-{
-const char* kEveryType = R"({"format": "kerf-chain", "version": 1, "stages": [
-  {"type": "high_pass", "freq_hz": 60, "order": 4, "alignment": "linkwitz_riley"},
-  {"type": "low_shelf", "freq_hz": 150, "gain_db": 4, "slope": 0.8, "channels": "left"},
-  {"type": "peaking", "freq_hz": 900, "gain_db": -7, "q": 3, "design": "bilinear"},
-  {"type": "notch", "freq_hz": 3000, "q": 6, "channels": "mid"},
-  {"type": "band_pass", "freq_hz": 2000, "q": 0.3, "channels": "side"},
-  {"type": "all_pass", "freq_hz": 500, "order": 1},
-  {"type": "tilt", "freq_hz": 1200, "gain_db": 3, "channels": "right"},
-  {"type": "high_shelf", "freq_hz": 9000, "gain_db": -5},
-  {"type": "low_pass", "freq_hz": 16000, "order": 2, "q": 2.5, "enabled": false}]})";
-} // namespace
-
 TEST_CASE("chain file: every section type and its fields", "[chain]")
 {
     // Source: the stage-type table in README.md (kerf-chain v1).
     using namespace kerf::dsp;
-    const auto r = parseChainJson(kEveryType);
+    const auto r = parseChainJson(kerf::test::kEveryTypeChain);
     INFO(r.error);
     REQUIRE(r.ok);
     REQUIRE(r.chain.numStages == 9);
