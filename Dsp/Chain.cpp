@@ -38,6 +38,8 @@ std::string_view stageTypeName(StageType type) noexcept
         return "all_pass";
     case StageType::tilt:
         return "tilt";
+    case StageType::echoCancel:
+        return "echo_cancel";
     }
     return "unknown";
 }
@@ -112,6 +114,8 @@ StageSections designStage(const StageSpec& s, double fs) noexcept
     case StageType::tilt:
         out.push(designTilt(s.freqHz, s.gainDb, fs, s.design));
         break;
+    case StageType::echoCancel:
+        break; // not a section: see EchoCanceller
     }
     return out;
 }
@@ -122,6 +126,8 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
     channelCount = std::clamp(numChannels, 1, kMaxChannels);
     blockSize = std::max(maxBlockSize, 64);
     scratch.assign(static_cast<std::size_t>(blockSize) * kMaxChannels, 0.0);
+    for (auto& e : echoPool)
+        e.prepare(sampleRateHz, blockSize, channelCount);
     // Designs depend on the rate: force a redesign on the next setChain().
     for (auto& st : stages)
         st = Stage{};
@@ -136,6 +142,8 @@ void ChainProcessor::reset() noexcept
     for (auto& channel : extraState)
         for (auto& s : channel)
             s.reset();
+    for (auto& e : echoPool)
+        e.reset();
 }
 
 int ChainProcessor::activeSections() const noexcept
@@ -150,13 +158,43 @@ int ChainProcessor::activeSections() const noexcept
 void ChainProcessor::setChain(const ChainSpec& chain) noexcept
 {
     const int n = std::min(chain.numStages, kMaxStages);
+    int echoes = 0;
+    anyActive = false;
     for (int i = 0; i < n; ++i)
     {
         auto& st = stages[static_cast<std::size_t>(i)];
         const StageSpec& spec = chain.stages[static_cast<std::size_t>(i)];
         const bool wasActive = st.active && i < numStages;
-        if (wasActive && spec == st.spec)
+        if (!isSectionType(spec.type))
+        {
+            // An echo canceller from the pool, in order of appearance; a non-causal one
+            // cannot run live and is left to the offline renderer.
+            const bool live =
+                spec.enabled && !spec.nonCausal && echoes < kMaxEchoStages && !scratch.empty();
+            const int slot = live ? echoes++ : -1;
+            if (live)
+            {
+                auto& canceller = echoPool[static_cast<std::size_t>(slot)];
+                if (!(wasActive && !st.sections && st.echo == slot))
+                    canceller.reset();
+                if (!(wasActive && spec == st.spec && st.echo == slot))
+                    canceller.setSettings(spec.echo);
+            }
+            st.spec = spec;
+            st.sections = false;
+            st.count = 0;
+            st.echo = slot;
+            st.active = live;
+            anyActive = anyActive || live;
             continue;
+        }
+        if (wasActive && st.sections && spec == st.spec)
+        {
+            anyActive = true;
+            continue;
+        }
+        if (!st.sections)
+            st = Stage{}; // was an echo stage: its sections start from rest
         const StageSections designed = designStage(spec, sampleRate);
         const int base = i * kMaxSectionsPerStage;
         for (int j = 0; j < designed.count; ++j)
@@ -181,8 +219,11 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
             }
         }
         st.spec = spec;
+        st.sections = true;
+        st.echo = -1;
         st.count = designed.count;
         st.active = designed.count > 0;
+        anyActive = anyActive || st.active;
     }
     for (int i = n; i < numStages; ++i)
         stages[static_cast<std::size_t>(i)].active = false;
@@ -353,6 +394,13 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
             ++i;
             continue;
         }
+        if (!st.sections)
+        {
+            // The echo canceller works on every channel.
+            echoPool[static_cast<std::size_t>(st.echo)].process(buf, nch, len);
+            ++i;
+            continue;
+        }
         const ChannelMode mode = st.spec.channels;
         if (mode == ChannelMode::both || !stereo)
         {
@@ -365,6 +413,7 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
             // section state lives at fixed per-stage positions.
             int end = i;
             while (end < numStages && stages[static_cast<std::size_t>(end)].active &&
+                   stages[static_cast<std::size_t>(end)].sections &&
                    (stages[static_cast<std::size_t>(end)].spec.channels == ChannelMode::both ||
                     !stereo) &&
                    !(!stereo &&
@@ -422,7 +471,7 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
 template <typename Sample>
 void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int numSamples) noexcept
 {
-    if (scratch.empty() || activeSections() == 0)
+    if (scratch.empty() || !anyActive)
         return;
     ScopedNoDenormals noDenormals;
     const int nch = std::min(numChannels, kMaxChannels);

@@ -3,6 +3,7 @@
 // hold) and its realtime processor (prepare / reset / process).
 #include "Design/PassFilters.h"
 #include "Design/Sections.h"
+#include "Stages/EchoCanceller.h"
 #include "Stages/SvfSection.h"
 
 #include <array>
@@ -25,8 +26,28 @@ enum class StageType
     bandPass,
     allPass,
     tilt,
+    echoCancel,
 };
-inline constexpr int kNumStageTypes = 9;
+inline constexpr int kNumStageTypes = 10;
+/// The parametric-section types come first: StageType values below this are sections.
+inline constexpr int kNumSectionTypes = 9;
+
+/// True for the parametric-section types (realised as second-order sections).
+constexpr bool isSectionType(StageType t) noexcept
+{
+    return static_cast<int>(t) < kNumSectionTypes;
+}
+
+inline bool operator==(const EchoReflection& a, const EchoReflection& b) noexcept
+{
+    return a.delayMs == b.delayMs && a.gain == b.gain;
+}
+inline bool operator==(const EchoCancelSettings& a, const EchoCancelSettings& b) noexcept
+{
+    return a.reflections == b.reflections && a.numReflections == b.numReflections &&
+           a.method == b.method && a.terms == b.terms &&
+           a.interpolationOrder == b.interpolationOrder;
+}
 
 /// Which signal a stage works on. Mid = (L + R)/2, side = (L - R)/2; decoding L = M + S,
 /// R = M - S restores the pair. On a mono signal every mode but `side` works on the one
@@ -62,6 +83,11 @@ struct StageSpec
     PassAlignment alignment = PassAlignment::butterworth;
     ChannelMode channels = ChannelMode::both;
     DesignMode design = DesignMode::accurate;
+    /// echo_cancel: the echo model and how to invert it (channels: always both).
+    EchoCancelSettings echo{};
+    /// echo_cancel, offline only: invert by running backwards in time (see README).
+    /// The realtime processor leaves such a stage out; `kerf render` applies it.
+    bool nonCausal = false;
 
     bool operator==(const StageSpec&) const = default;
 };
@@ -83,8 +109,8 @@ inline constexpr int kMaxSectionsPerStage = kMaxDesignSections;
 /// The designed second-order sections of one stage: its exact H(z) is their product.
 using StageSections = DesignedSections;
 
-/// Designs a stage's sections at a sample rate. A disabled stage has none (H = 1).
-/// Pure and allocation-free.
+/// Designs a stage's sections at a sample rate. A disabled stage, and a stage that is not a
+/// parametric section (echo_cancel), has none. Pure and allocation-free.
 StageSections designStage(const StageSpec& spec, double sampleRateHz) noexcept;
 
 /// Realtime processor of a ChainSpec. Lifecycle: prepare() (allocates) -> reset() ->
@@ -95,6 +121,8 @@ public:
     static constexpr int kMaxChannels = 8;
     static constexpr int kMaxStages = ChainSpec::kMaxStages;
     static constexpr int kMaxSections = kMaxStages * kMaxSectionsPerStage;
+    /// Echo-cancellation stages one chain may hold (each owns delay lines from prepare()).
+    static constexpr int kMaxEchoStages = 2;
 
     /// Sets the sample rate, largest block and channel count; clears the state.
     void prepare(double sampleRateHz, int maxBlockSize, int numChannels);
@@ -122,7 +150,9 @@ private:
     {
         StageSpec spec;
         bool active = false;
-        int count = 0; // sections, stored at [index * kMaxSectionsPerStage, + count)
+        bool sections = true; // parametric sections; false: echo canceller `echo`
+        int count = 0;        // sections, stored at [index * kMaxSectionsPerStage, + count)
+        int echo = -1;        // index into echoPool
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
     /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
@@ -152,6 +182,8 @@ private:
     std::array<PairState, kMaxSections> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSections>, kMaxChannels - 2> extraState{}; // 2..7
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
+    std::array<EchoCanceller, kMaxEchoStages> echoPool;
+    bool anyActive = false;
 };
 
 /// Flushes denormals to zero on this thread for its lifetime (x86 SSE; no-op elsewhere).

@@ -23,5 +23,8 @@ inline constexpr int kPassOrderMin = 1;  ///< high-/low-pass: 6 dB/oct
 inline constexpr int kPassOrderMax = 8;  ///< 48 dB/oct
 inline constexpr int kAllPassOrderMin = 1;
 inline constexpr int kAllPassOrderMax = 2;
+/// Largest |gain| of an echo reflection in a chain file. Above 1 only the offline
+/// non-causal inverse is stable for a single reflection.
+inline constexpr double kEchoGainMax = 4.0;
 
 } // namespace kerf::dsp::limits

@@ -13,10 +13,29 @@ KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcesso
     protectionLabel.setColour(juce::Label::textColourId, juce::Colour(0xfff2a65a));
     protectionLabel.setTooltip("The output protection is limiting peaks at its ceiling");
     addChildComponent(protectionLabel);
+
+    listenButton.setTooltip("Records a few seconds of the input and estimates its discrete "
+                            "reflections (delay, gain, confidence)");
+    applyButton.setTooltip("Sets the echo-cancellation stage to the values found and turns it on");
+    discardButton.setTooltip("Forgets the values found");
+    echoStatus.setTooltip("What the echo listener is doing or found");
+    listenButton.onClick = [this] { kerfProcessor.echoCapture().start(); };
+    applyButton.onClick = [this]
+    {
+        dsp::EchoEstimate estimate;
+        if (kerfProcessor.echoCapture().takeProposal(estimate))
+            kerfProcessor.applyEchoEstimate(estimate);
+    };
+    discardButton.onClick = [this] { kerfProcessor.echoCapture().cancel(); };
+    echoStatus.setColour(juce::Label::textColourId, juce::Colour(0xffd8cbb0));
+    for (auto* c : std::initializer_list<juce::Component*>{&listenButton, &applyButton,
+                                                           &discardButton, &echoStatus})
+        addAndMakeVisible(c);
     setResizable(true, true);
     setResizeLimits(480, 360, 2400, 1600);
     setSize(760, 560);
     refreshResponse();
+    updateEchoPanel();
     startTimerHz(30);
 }
 
@@ -33,6 +52,13 @@ void KerfEditor::paint(juce::Graphics& g)
 void KerfEditor::resized()
 {
     auto area = getLocalBounds();
+    auto echoRow = area.removeFromTop(34).reduced(4);
+    listenButton.setBounds(echoRow.removeFromLeft(160));
+    echoRow.removeFromLeft(6);
+    discardButton.setBounds(echoRow.removeFromRight(80));
+    echoRow.removeFromRight(4);
+    applyButton.setBounds(echoRow.removeFromRight(120));
+    echoStatus.setBounds(echoRow.reduced(6, 0));
     auto top = area.removeFromTop(area.getHeight() * 5 / 11);
     protectionLabel.setBounds(top.getRight() - 120, top.getY() + 4, 116, 18);
     response.setBounds(top.reduced(4));
@@ -45,9 +71,46 @@ void KerfEditor::refreshResponse()
     response.setChain(kerfProcessor.exportChain(), rate);
 }
 
+void KerfEditor::updateEchoPanel()
+{
+    using State = EchoCapture::State;
+    auto& capture = kerfProcessor.echoCapture();
+    const State state = capture.state();
+    juce::String text;
+    switch (state)
+    {
+    case State::idle:
+        text = "Echo listener idle";
+        break;
+    case State::recording:
+        text = "Listening... " + juce::String(juce::roundToInt(100.0f * capture.progress())) + "%";
+        break;
+    case State::analysing:
+        text = "Estimating...";
+        break;
+    case State::ready:
+    {
+        dsp::EchoEstimate estimate;
+        capture.peekProposal(estimate);
+        if (estimate.reflections.empty())
+            text = "No discrete echo found";
+        for (const auto& r : estimate.reflections)
+            text << (text.isEmpty() ? "" : ";  ") << juce::String(r.delayMs, 2) << " ms, gain "
+                 << juce::String(r.gain, 2) << " (confidence " << juce::String(r.confidence, 2)
+                 << ")";
+        break;
+    }
+    }
+    echoStatus.setText(text, juce::dontSendNotification);
+    listenButton.setEnabled(state == State::idle || state == State::ready);
+    applyButton.setEnabled(state == State::ready);
+    discardButton.setEnabled(state != State::idle);
+}
+
 void KerfEditor::timerCallback()
 {
     refreshResponse();
+    updateEchoPanel();
     if (kerfProcessor.takeProtectionCount() > 0)
         protectionHoldFrames = 30;
     else if (protectionHoldFrames > 0)

@@ -32,6 +32,13 @@ private:
     juce::GenericAudioProcessorEditor controls;
     juce::Label protectionLabel;
     int protectionHoldFrames = 0;
+
+    // Echo panel: listen, then apply or discard what was found.
+    void updateEchoPanel();
+    juce::TextButton listenButton{"Listen for room echo"};
+    juce::TextButton applyButton{"Apply echo fix"};
+    juce::TextButton discardButton{"Discard"};
+    juce::Label echoStatus;
 };
 
 } // namespace kerf

@@ -130,6 +130,63 @@ juce::StringArray fieldsOf(dsp::StageType type)
         return {"freq_hz", "order", "q"};
     case T::tilt:
         return {"freq_hz", "gain_db"};
+    case T::echoCancel:
+        return {"method", "terms", "reflections", "non_causal"};
+    }
+    return {};
+}
+
+/// The echo_cancel fields: method, terms, reflections [{delay_ms, gain}], non_causal, enabled.
+juce::String readEchoStage(const juce::DynamicObject& obj, const juce::String& where,
+                           dsp::StageSpec& s)
+{
+    int method = 0;
+    auto err = readChoice(obj, "method", {"exact", "series"}, where, method);
+    if (err.isEmpty())
+        err = readInteger(obj, "terms", 1, dsp::kMaxEchoSeriesTerms, 4, where, s.echo.terms);
+    if (err.isNotEmpty())
+        return err;
+    s.echo.method = method == 0 ? dsp::EchoMethod::exact : dsp::EchoMethod::series;
+    const juce::var list = obj.getProperty("reflections");
+    if (!list.isArray() || list.size() < 1 || list.size() > dsp::kMaxEchoReflections)
+        return where + ", field 'reflections': expected an array of 1 to " +
+               juce::String(dsp::kMaxEchoReflections) +
+               " objects like {\"delay_ms\": 12.7, \"gain\": 0.5}";
+    s.echo.numReflections = list.size();
+    for (int k = 0; k < list.size(); ++k)
+    {
+        const juce::String at = where + ", reflection " + juce::String(k);
+        auto* r = list[k].getDynamicObject();
+        if (r == nullptr || list[k].isArray())
+            return at + ": expected an object like {\"delay_ms\": 12.7, \"gain\": 0.5}";
+        auto& refl = s.echo.reflections[static_cast<std::size_t>(k)];
+        err = readRanged(*r, "delay_ms", dsp::kMinEchoDelayMs, dsp::kMaxEchoDelayMs, std::nullopt,
+                         at, refl.delayMs);
+        if (err.isEmpty())
+            err = readRanged(*r, "gain", -dsp::limits::kEchoGainMax, dsp::limits::kEchoGainMax,
+                             std::nullopt, at, refl.gain);
+        if (err.isNotEmpty())
+            return err;
+        for (const auto& prop : r->getProperties())
+            if (prop.name.toString() != "delay_ms" && prop.name.toString() != "gain")
+                return at + ", field '" + prop.name.toString() +
+                       "': not a reflection field (delay_ms, gain)";
+    }
+    if (obj.hasProperty("non_causal"))
+    {
+        const juce::var nc = obj.getProperty("non_causal");
+        if (!nc.isBool())
+            return where + ", field 'non_causal': expected true or false";
+        s.nonCausal = static_cast<bool>(nc);
+        if (s.nonCausal && s.echo.method != dsp::EchoMethod::exact)
+            return where + ", field 'non_causal': only the exact method runs backwards in time";
+    }
+    if (obj.hasProperty("enabled"))
+    {
+        const juce::var e = obj.getProperty("enabled");
+        if (!e.isBool())
+            return where + ", field 'enabled': expected true or false";
+        s.enabled = static_cast<bool>(e);
     }
     return {};
 }
@@ -157,6 +214,20 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     dsp::StageSpec s;
     s.type = static_cast<T>(typeIndex);
     const juce::StringArray fields = fieldsOf(s.type);
+    if (s.type == T::echoCancel)
+    {
+        auto echoErr = readEchoStage(*obj, where, s);
+        if (echoErr.isNotEmpty())
+            return echoErr;
+        juce::StringArray allowed{"type", "enabled"};
+        allowed.addArray(fields);
+        for (const auto& prop : obj->getProperties())
+            if (!allowed.contains(prop.name.toString()))
+                return where + ", field '" + prop.name.toString() + "': not a field of type " +
+                       type + " (its fields: " + allowed.joinIntoString(", ") + ")";
+        out = s;
+        return {};
+    }
     juce::String err;
     auto has = [&](const char* f) { return fields.contains(f); };
 
@@ -292,6 +363,7 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
                   juce::String(dsp::ChainSpec::kMaxStages) + " are allowed";
         return r;
     }
+    int echoStages = 0;
     for (int i = 0; i < stages.size(); ++i)
     {
         dsp::StageSpec s;
@@ -299,6 +371,14 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
         if (err.isNotEmpty())
         {
             r.error = err;
+            return r;
+        }
+        if (s.type == dsp::StageType::echoCancel &&
+            ++echoStages > dsp::ChainProcessor::kMaxEchoStages)
+        {
+            r.error = "stage " + juce::String(i) + ", field 'type': at most " +
+                      juce::String(dsp::ChainProcessor::kMaxEchoStages) +
+                      " echo_cancel stages in one chain";
             return r;
         }
         r.chain.push(s);
@@ -349,6 +429,25 @@ juce::String chainToJson(const dsp::ChainSpec& chain, const juce::String& name)
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
         const auto fields = fieldsOf(s.type);
         out << (i == 0 ? "\n" : ",\n");
+        if (s.type == T::echoCancel)
+        {
+            out << "    {\"type\": \"echo_cancel\", \"method\": \""
+                << (s.echo.method == dsp::EchoMethod::exact ? "exact" : "series") << "\"";
+            if (s.echo.method == dsp::EchoMethod::series)
+                out << ", \"terms\": " << s.echo.terms;
+            out << ", \"reflections\": [";
+            for (int k = 0; k < s.echo.numReflections; ++k)
+            {
+                const auto& r = s.echo.reflections[static_cast<std::size_t>(k)];
+                out << (k ? ", " : "") << "{\"delay_ms\": " << formatNumber(r.delayMs)
+                    << ", \"gain\": " << formatNumber(r.gain) << "}";
+            }
+            out << "]";
+            if (s.nonCausal)
+                out << ", \"non_causal\": true";
+            out << ", \"enabled\": " << (s.enabled ? "true" : "false") << "}";
+            continue;
+        }
         out << "    {\"type\": \"" << str(dsp::stageTypeName(s.type))
             << "\", \"freq_hz\": " << formatNumber(s.freqHz);
         if (fields.contains("gain_db"))

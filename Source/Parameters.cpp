@@ -3,6 +3,7 @@
 #include "Limits.h"
 
 #include <cmath>
+#include <vector>
 
 namespace kerf
 {
@@ -114,6 +115,14 @@ juce::String slotDesign(int slot)
 {
     return slotPrefix(slot) + "_design";
 }
+juce::String echoDelay(int reflection)
+{
+    return "echo_r" + juce::String(reflection + 1) + "_delay";
+}
+juce::String echoGain(int reflection)
+{
+    return "echo_r" + juce::String(reflection + 1) + "_gain";
+}
 } // namespace ids
 
 double defaultSlotFreqHz(int slot)
@@ -190,6 +199,40 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
         layout.add(std::move(group));
     }
 
+    {
+        auto echo =
+            std::make_unique<juce::AudioProcessorParameterGroup>("echo", "Echo cancel", " | ");
+        echo->addChild(std::make_unique<juce::AudioParameterBool>(
+            juce::ParameterID{ids::echoOn, kParameterVersion}, "Echo cancel on", false));
+        echo->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::echoMethod, kParameterVersion}, "Echo cancel method",
+            juce::StringArray{"Exact", "Series"}, 0));
+        echo->addChild(std::make_unique<juce::AudioParameterInt>(
+            juce::ParameterID{ids::echoTerms, kParameterVersion}, "Echo cancel series terms", 1,
+            dsp::kMaxEchoSeriesTerms, 4));
+        const auto msAttr = AudioParameterFloatAttributes()
+                                .withLabel("ms")
+                                .withStringFromValueFunction([](float v, int)
+                                                             { return juce::String(v, 2) + " ms"; })
+                                .withValueFromStringFunction(
+                                    [](const juce::String& t)
+                                    { return t.trim().removeCharacters(" ms").getFloatValue(); });
+        for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+        {
+            const juce::String name = "Echo reflection " + juce::String(k + 1);
+            echo->addChild(std::make_unique<juce::AudioParameterFloat>(
+                juce::ParameterID{ids::echoDelay(k), kParameterVersion}, name + " delay",
+                logRange(static_cast<float>(dsp::kMinEchoDelayMs),
+                         static_cast<float>(dsp::kMaxEchoDelayMs), 5),
+                10.0f * static_cast<float>(k + 1), msAttr));
+            echo->addChild(std::make_unique<juce::AudioParameterFloat>(
+                juce::ParameterID{ids::echoGain(k), kParameterVersion}, name + " gain",
+                juce::NormalisableRange<float>(-kPluginEchoGainMax, kPluginEchoGainMax, 0.0001f),
+                0.0f));
+        }
+        layout.add(std::move(echo));
+    }
+
     layout.add(std::make_unique<juce::AudioParameterFloat>(
         juce::ParameterID{ids::outputGain, kParameterVersion}, "Output gain",
         dbRange(-24.0f, 12.0f), 0.0f, gainAttr));
@@ -222,6 +265,14 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
     outputGainDb = state.getRawParameterValue(ids::outputGain);
     protectOn = state.getRawParameterValue(ids::protectOn);
     protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
+    echoOn = state.getRawParameterValue(ids::echoOn);
+    echoMethod = state.getRawParameterValue(ids::echoMethod);
+    echoTerms = state.getRawParameterValue(ids::echoTerms);
+    for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+    {
+        echoDelayMs[static_cast<std::size_t>(k)] = state.getRawParameterValue(ids::echoDelay(k));
+        echoGain[static_cast<std::size_t>(k)] = state.getRawParameterValue(ids::echoGain(k));
+    }
 }
 
 namespace
@@ -236,12 +287,33 @@ int choiceIndex(const std::atomic<float>* p, int count) noexcept
 void ParameterRefs::readChain(dsp::ChainSpec& out) const noexcept
 {
     using T = dsp::StageType;
-    out.numStages = kNumSectionSlots;
+    out.numStages = kNumSectionSlots + 1;
+    {
+        // Stage 0: the echo canceller, with the reflections whose gain is not zero.
+        auto& echo = out.stages[0];
+        echo = dsp::StageSpec{};
+        echo.type = T::echoCancel;
+        echo.echo.method =
+            choiceIndex(echoMethod, 2) == 0 ? dsp::EchoMethod::exact : dsp::EchoMethod::series;
+        echo.echo.terms = juce::jlimit(1, dsp::kMaxEchoSeriesTerms,
+                                       static_cast<int>(std::lround(echoTerms->load())));
+        int n = 0;
+        for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+        {
+            const float g = echoGain[static_cast<std::size_t>(k)]->load(std::memory_order_relaxed);
+            if (g == 0.0f)
+                continue;
+            echo.echo.reflections[static_cast<std::size_t>(n++)] = {
+                echoDelayMs[static_cast<std::size_t>(k)]->load(std::memory_order_relaxed), g};
+        }
+        echo.echo.numReflections = n;
+        echo.enabled = echoOn->load(std::memory_order_relaxed) > 0.5f && n > 0;
+    }
     for (int i = 0; i < kNumSectionSlots; ++i)
     {
         const auto& s = slots[static_cast<std::size_t>(i)];
-        auto& st = out.stages[static_cast<std::size_t>(i)];
-        st.type = static_cast<T>(choiceIndex(s.type, dsp::kNumStageTypes));
+        auto& st = out.stages[static_cast<std::size_t>(i + 1)];
+        st.type = static_cast<T>(choiceIndex(s.type, dsp::kNumSectionTypes));
         st.enabled = s.on->load(std::memory_order_relaxed) > 0.5f;
         st.freqHz = s.freq->load(std::memory_order_relaxed);
         st.gainDb = s.gain->load(std::memory_order_relaxed);
@@ -270,10 +342,42 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
                             juce::String& error)
 {
     using T = dsp::StageType;
-    if (chain.numStages > kNumSectionSlots)
+    // Split the chain: one causal echo stage, then the sections in order.
+    const dsp::StageSpec* echo = nullptr;
+    std::vector<dsp::StageSpec> sections;
+    for (int i = 0; i < chain.numStages; ++i)
     {
-        error = "the chain has " + juce::String(chain.numStages) + " stages; the plugin has " +
-                juce::String(kNumSectionSlots) + " section slots";
+        const auto& s = chain.stages[static_cast<std::size_t>(i)];
+        if (s.type != T::echoCancel)
+        {
+            sections.push_back(s);
+            continue;
+        }
+        if (echo != nullptr)
+        {
+            error = "the plugin has one echo-cancellation stage; the chain has more";
+            return false;
+        }
+        if (s.nonCausal)
+        {
+            error = "stage " + juce::String(i) +
+                    " is non_causal: it runs backwards in time, only in kerf render";
+            return false;
+        }
+        for (int k = 0; k < s.echo.numReflections; ++k)
+            if (std::abs(s.echo.reflections[static_cast<std::size_t>(k)].gain) > kPluginEchoGainMax)
+            {
+                error = "stage " + juce::String(i) + ": a reflection gain above " +
+                        juce::String(kPluginEchoGainMax) +
+                        " has no stable live inverse; use kerf render with non_causal";
+                return false;
+            }
+        echo = &s;
+    }
+    if (static_cast<int>(sections.size()) > kNumSectionSlots)
+    {
+        error = "the chain has " + juce::String(static_cast<int>(sections.size())) +
+                " section stages; the plugin has " + juce::String(kNumSectionSlots) + " slots";
         return false;
     }
     auto set = [&state](const juce::String& id, float value)
@@ -281,11 +385,24 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
         auto* p = state.getParameter(id);
         p->setValueNotifyingHost(p->convertTo0to1(value));
     };
+    set(ids::echoOn, echo != nullptr && echo->enabled ? 1.0f : 0.0f);
+    set(ids::echoMethod,
+        echo != nullptr && echo->echo.method == dsp::EchoMethod::series ? 1.0f : 0.0f);
+    set(ids::echoTerms, static_cast<float>(echo != nullptr ? echo->echo.terms : 4));
+    for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+    {
+        const bool used = echo != nullptr && k < echo->echo.numReflections;
+        const auto& r =
+            used ? echo->echo.reflections[static_cast<std::size_t>(k)] : dsp::EchoReflection{};
+        set(ids::echoDelay(k),
+            used ? static_cast<float>(r.delayMs) : 10.0f * static_cast<float>(k + 1));
+        set(ids::echoGain(k), used ? static_cast<float>(r.gain) : 0.0f);
+    }
     for (int i = 0; i < kNumSectionSlots; ++i)
     {
         dsp::StageSpec s;
-        if (i < chain.numStages)
-            s = chain.stages[static_cast<std::size_t>(i)];
+        if (i < static_cast<int>(sections.size()))
+            s = sections[static_cast<std::size_t>(i)];
         else
         {
             s.enabled = false;

@@ -18,6 +18,9 @@ enum class SlotAlignment
     resonant,
 };
 
+/// Largest |gain| of a reflection in the plugin: the live inverse must stay causal.
+inline constexpr float kPluginEchoGainMax = 0.95f;
+
 /// Parameter-layout version hint passed to juce::ParameterID.
 inline constexpr int kParameterVersion = 1;
 /// Section slots the plugin offers.
@@ -39,6 +42,11 @@ juce::String slotDesign(int slot); ///< "sec01_design"
 inline const juce::String outputGain = "out_gain";
 inline const juce::String protectOn = "protect_on";
 inline const juce::String protectCeiling = "protect_ceiling";
+inline const juce::String echoOn = "echo_on";
+inline const juce::String echoMethod = "echo_method";
+inline const juce::String echoTerms = "echo_terms";
+juce::String echoDelay(int reflection); ///< "echo_r1_delay" (reflection 0)
+juce::String echoGain(int reflection);  ///< "echo_r1_gain"
 } // namespace ids
 
 /// Builds the full parameter layout.
@@ -67,15 +75,23 @@ struct ParameterRefs
     std::atomic<float>* outputGainDb = nullptr;
     std::atomic<float>* protectOn = nullptr;
     std::atomic<float>* protectCeilingDb = nullptr;
+    std::atomic<float>* echoOn = nullptr;
+    std::atomic<float>* echoMethod = nullptr;
+    std::atomic<float>* echoTerms = nullptr;
+    std::array<std::atomic<float>*, dsp::kMaxEchoReflections> echoDelayMs{};
+    std::array<std::atomic<float>*, dsp::kMaxEchoReflections> echoGain{};
 
     explicit ParameterRefs(juce::AudioProcessorValueTreeState& state);
 
-    /// Snapshot of the chain the parameters describe (one stage per slot). No allocation.
+    /// Snapshot of the chain the parameters describe: stage 0 is the echo canceller (off
+    /// unless echo_on and a reflection has a gain), stages 1..24 the section slots.
+    /// No allocation.
     void readChain(dsp::ChainSpec& out) const noexcept;
 };
 
-/// Sets every parameter from a chain (slot i takes stage i; remaining slots switch off).
-/// Returns false when the chain has more stages than slots. Message thread.
+/// Sets every parameter from a chain: its echo_cancel stage (at most one, causal) sets the
+/// echo parameters, its section stages fill the slots in order, remaining slots switch off.
+/// Returns false (with a reason) when the chain does not fit. Message thread.
 bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorValueTreeState& state,
                             juce::String& error);
 

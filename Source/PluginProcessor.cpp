@@ -31,6 +31,7 @@ bool KerfProcessor::isBusesLayoutSupported(const BusesLayout& layouts) const
 void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
 {
     chain.prepare(sampleRate, samplesPerBlock, juce::jmax(getTotalNumOutputChannels(), 1));
+    capture.prepare(sampleRate);
     refs.readChain(snapshot);
     chain.setChain(snapshot);
     lastOutputGain = juce::Decibels::decibelsToGain(refs.outputGainDb->load(), -120.0f);
@@ -44,6 +45,9 @@ template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Samp
     const int numChannels = buffer.getNumChannels();
     for (int ch = getTotalNumInputChannels(); ch < numChannels; ++ch)
         buffer.clear(ch, 0, numSamples);
+
+    // The echo estimate listens to the input as it arrives, before any processing.
+    capture.push(buffer.getArrayOfReadPointers(), getTotalNumInputChannels(), numSamples);
 
     refs.readChain(snapshot);
     chain.setChain(snapshot);
@@ -113,6 +117,27 @@ juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain)
 dsp::ChainSpec KerfProcessor::exportChain() const
 {
     return chainFromParameters(refs);
+}
+
+void KerfProcessor::applyEchoEstimate(const dsp::EchoEstimate& estimate)
+{
+    auto set = [this](const juce::String& id, float value)
+    {
+        auto* p = parameters.getParameter(id);
+        p->setValueNotifyingHost(p->convertTo0to1(value));
+    };
+    for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+    {
+        const bool found = k < static_cast<int>(estimate.reflections.size());
+        const auto* r = found ? &estimate.reflections[static_cast<std::size_t>(k)] : nullptr;
+        set(ids::echoDelay(k),
+            found ? static_cast<float>(r->delayMs) : 10.0f * static_cast<float>(k + 1));
+        set(ids::echoGain(k), found ? juce::jlimit(-kPluginEchoGainMax, kPluginEchoGainMax,
+                                                   static_cast<float>(r->gain))
+                                    : 0.0f);
+    }
+    set(ids::echoMethod, 0.0f);
+    set(ids::echoOn, estimate.reflections.empty() ? 0.0f : 1.0f);
 }
 
 void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)

@@ -1,6 +1,7 @@
 #pragma once
 // The Kerf AudioProcessor: adapts JUCE buffers and parameters to the Dsp core.
 #include "Chain.h"
+#include "EchoCapture.h"
 #include "Parameters.h"
 #include "Stages/OutputProtection.h"
 
@@ -21,6 +22,8 @@ public:
 
     void prepareToPlay(double sampleRate, int samplesPerBlock) override;
     void releaseResources() override {}
+    /// Clears every filter and delay memory (hosts call it on transport jumps).
+    void reset() override { chain.reset(); }
     bool isBusesLayoutSupported(const BusesLayout& layouts) const override;
     void processBlock(juce::AudioBuffer<float>&, juce::MidiBuffer&) override;
     void processBlock(juce::AudioBuffer<double>&, juce::MidiBuffer&) override;
@@ -53,6 +56,11 @@ public:
     juce::AudioProcessorValueTreeState& state() noexcept { return parameters; }
     /// Samples the output protection has changed since the last call.
     std::int64_t takeProtectionCount() noexcept { return protection.takeTouchedCount(); }
+    /// The "listen for room echo" action (message thread: start, cancel, take the proposal).
+    EchoCapture& echoCapture() noexcept { return capture; }
+    /// Sets the echo parameters from an accepted estimate (message thread).
+    void applyEchoEstimate(const dsp::EchoEstimate& estimate);
+
     /// Why the last state restore fell back to defaults ("" when it did not).
     juce::String lastStateProblem() const { return stateProblem; }
 
@@ -65,6 +73,7 @@ private:
     dsp::ChainProcessor chain;
     dsp::ChainSpec snapshot; // reused every block: no allocation
     dsp::OutputProtection protection;
+    EchoCapture capture;
     double lastOutputGain = 1.0;
     int currentProgram = 0;
     juce::String stateProblem;

@@ -59,12 +59,22 @@ Matrix2 multiply(const Matrix2& a, const Matrix2& b)
     return r;
 }
 
-/// The designed sections of every enabled stage, with its channel mode.
+/// The designed sections of every enabled stage, with its channel mode; an echo stage
+/// carries its settings instead.
 struct DesignedStage
 {
     ChannelMode mode;
     StageSections sections;
+    const StageSpec* echo = nullptr; // echo_cancel stage, evaluated by EchoCanceller.h
 };
+
+/// H and dH/domega of an echo-cancellation stage (causal or, offline, non-causal).
+Dual echoDual(const StageSpec& spec, double fs, double omega)
+{
+    const ResponseValue r = spec.nonCausal ? echoNonCausalResponseValue(spec.echo, fs, omega)
+                                           : echoCancelResponseValue(spec.echo, fs, omega);
+    return {r.h, r.dh};
+}
 
 std::vector<DesignedStage> designAll(const ChainSpec& chain, double fs)
 {
@@ -72,20 +82,30 @@ std::vector<DesignedStage> designAll(const ChainSpec& chain, double fs)
     for (int i = 0; i < chain.numStages; ++i)
     {
         const auto& spec = chain.stages[static_cast<std::size_t>(i)];
+        if (!spec.enabled)
+            continue;
+        if (spec.type == StageType::echoCancel)
+        {
+            out.push_back({ChannelMode::both, {}, &spec});
+            continue;
+        }
         auto s = designStage(spec, fs);
         if (s.count > 0)
-            out.push_back({spec.channels, s});
+            out.push_back({spec.channels, s, nullptr});
     }
     return out;
 }
 
 /// The view's path through the chain at omega: value and derivative.
-Dual evaluateView(const std::vector<DesignedStage>& stages, double omega, ChannelView view)
+Dual evaluateView(const std::vector<DesignedStage>& stages, double fs, double omega,
+                  ChannelView view)
 {
     Matrix2 total;
     for (const auto& st : stages)
     {
         Dual h;
+        if (st.echo != nullptr)
+            h = echoDual(*st.echo, fs, omega);
         for (int j = 0; j < st.sections.count; ++j)
             h = h * sectionDual(st.sections.sections[static_cast<std::size_t>(j)], omega);
         const Dual one{};
@@ -213,6 +233,11 @@ std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz, 
         for (int i = 0; i < chain.numStages; ++i)
         {
             const auto& spec = chain.stages[static_cast<std::size_t>(i)];
+            if (spec.enabled && spec.type == StageType::echoCancel)
+            {
+                h *= echoDual(spec, sampleRateHz, omega).v;
+                continue;
+            }
             if (!stageInProductView(spec.channels, view))
                 continue;
             const StageSections s = designStage(spec, sampleRateHz);
@@ -221,7 +246,7 @@ std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz, 
         }
         return h;
     }
-    return evaluateView(designAll(chain, sampleRateHz), omega, view).v;
+    return evaluateView(designAll(chain, sampleRateHz), sampleRateHz, omega, view).v;
 }
 
 std::vector<ResponsePoint> chainResponse(const ChainSpec& chain, double sampleRateHz,
@@ -234,7 +259,7 @@ std::vector<ResponsePoint> chainResponse(const ChainSpec& chain, double sampleRa
     for (std::size_t i = 0; i < freqsHz.size(); ++i)
     {
         const double omega = 2.0 * kPi * freqsHz[i] / sampleRateHz;
-        const Dual h = evaluateView(stages, omega, view);
+        const Dual h = evaluateView(stages, sampleRateHz, omega, view);
         // Unwrap as numpy.unwrap does: remove jumps larger than pi between neighbours.
         const double wrapped = std::arg(h.v);
         if (i > 0)
@@ -264,7 +289,12 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
 {
     if (count <= 0)
         return;
-    if (!viewIsProductImpl(chain, view))
+    bool hasEcho = false;
+    for (int i = 0; i < chain.numStages; ++i)
+        hasEcho =
+            hasEcho || (chain.stages[static_cast<std::size_t>(i)].enabled &&
+                        chain.stages[static_cast<std::size_t>(i)].type == StageType::echoCancel);
+    if (hasEcho || !viewIsProductImpl(chain, view))
     {
         const auto points =
             chainResponse(chain, sampleRateHz, std::vector<double>(freqsHz, freqsHz + count), view);
@@ -405,6 +435,31 @@ std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c)
 PoleZero stagePolesZeros(const StageSpec& spec, double sampleRateHz)
 {
     PoleZero pz;
+    if (spec.type == StageType::echoCancel)
+    {
+        if (!spec.enabled)
+            return pz;
+        if (spec.echo.method != EchoMethod::exact || spec.nonCausal)
+        {
+            pz.listed = false;
+            pz.note = spec.nonCausal ? "non-causal: runs backwards in time, no causal poles"
+                                     : "series method: an FIR of high degree, roots not listed";
+            return pz;
+        }
+        const auto p = echoModelPolynomial(spec.echo, sampleRateHz);
+        const int degree = static_cast<int>(p.size()) - 1;
+        if (degree > kMaxRootDegree)
+        {
+            pz.listed = false;
+            pz.note = "degree " + std::to_string(degree) + " is above " +
+                      std::to_string(kMaxRootDegree) + ": roots not listed";
+            return pz;
+        }
+        pz.poles = polynomialRoots(p);
+        pz.zeros.assign(static_cast<std::size_t>(degree), std::complex<double>(0.0, 0.0));
+        pz.gain = 1.0 / p[0];
+        return pz;
+    }
     const StageSections s = designStage(spec, sampleRateHz);
     for (int j = 0; j < s.count; ++j)
     {

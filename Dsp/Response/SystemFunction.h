@@ -10,6 +10,7 @@
 #include "../Chain.h"
 
 #include <complex>
+#include <string>
 #include <vector>
 
 namespace kerf::dsp
@@ -84,14 +85,21 @@ struct PoleZero
 {
     std::vector<std::complex<double>> zeros, poles;
     double gain = 1.0;
+    bool listed = true; ///< false when the roots were not computed (see note)
+    std::string note;
 };
+
+/// Highest polynomial degree whose roots stagePolesZeros computes (an echo model's degree
+/// is its longest delay in samples; a dense eigen-solve beyond this is too slow to be useful).
+inline constexpr int kMaxRootDegree = 600;
 
 /// Roots of c[0] x^n + c[1] x^(n-1) + ... + c[n] (leading zeros dropped), from the
 /// eigenvalues of the companion matrix (Eigen), as numpy.roots computes them.
 std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c);
 
 /// Poles and zeros of one stage's own H(z) (its sections' roots together); a first-order
-/// section contributes one pole and one zero.
+/// section contributes one pole and one zero. An exact echo canceller 1/P(z) has the roots
+/// of P as poles and as many zeros at the origin, listed up to kMaxRootDegree.
 PoleZero stagePolesZeros(const StageSpec& spec, double sampleRateHz);
 
 } // namespace kerf::dsp

@@ -33,8 +33,10 @@ void printError(const juce::String& message);
 
 int runRender(Args args);
 int runResponse(Args args);
+int runEchoEstimate(Args args);
 
 extern const char* const kRenderHelp;
 extern const char* const kResponseHelp;
+extern const char* const kEchoEstimateHelp;
 
 } // namespace kerf::cli

@@ -65,12 +65,15 @@ Usage:
   kerf render IN OUT --chain FILE [--bits 32|24|16]
   kerf response --chain FILE [--rate HZ] [--points N | --freqs F1,F2,...] [--format csv|json]
                 [--channel left|right|mid|side] [--poles] [--plot FILE.png]
+  kerf echo-estimate IN [--min-delay-ms A] [--max-delay-ms B] [--max-reflections K]
+                [--json] [--write-chain OUT.json]
   kerf SUBCOMMAND --help
   kerf --help | --version
 
 Subcommands:
   render     process an audio file (WAV, AIFF, FLAC) through a chain, write WAV
   response   print a chain's frequency response, computed from its system function
+  echo-estimate  find a recording's discrete reflections (delay, gain, confidence)
 
 Chain files are JSON ("format": "kerf-chain"); see README.md.
 Exit status: 0 success, 1 failure (message on stderr), 2 usage error.
@@ -114,6 +117,15 @@ int main(int argc, char* argv[])
             return kExitOk;
         }
         return runResponse(Args(words));
+    }
+    if (command == "echo-estimate")
+    {
+        if (wantsHelp)
+        {
+            std::cout << kEchoEstimateHelp;
+            return kExitOk;
+        }
+        return runEchoEstimate(Args(words));
     }
     printError("unknown subcommand '" + command + "' (try kerf --help)");
     return kExitUsage;

@@ -1,4 +1,5 @@
 // `kerf render IN OUT --chain FILE [--bits 32|24|16]`
+#include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
 
@@ -38,31 +39,6 @@ extern "C" void onSignal(int)
 {
     interrupted.store(true);
 }
-
-/// Wraps a file stream and remembers whether a read came up short: a WAV or AIFF whose
-/// header promises more audio than the file holds (a truncated file) shows up this way.
-class ShortReadDetector : public juce::InputStream
-{
-public:
-    explicit ShortReadDetector(std::unique_ptr<juce::InputStream> s) : inner(std::move(s)) {}
-    juce::int64 getTotalLength() override { return inner->getTotalLength(); }
-    bool isExhausted() override { return inner->isExhausted(); }
-    int read(void* dest, int n) override
-    {
-        const int got = inner->read(dest, n);
-        if (armed && got < n)
-            shortRead = true;
-        return got;
-    }
-    juce::int64 getPosition() override { return inner->getPosition(); }
-    bool setPosition(juce::int64 p) override { return inner->setPosition(p); }
-
-    bool armed = false;
-    bool shortRead = false;
-
-private:
-    std::unique_ptr<juce::InputStream> inner;
-};
 
 bool sameFile(const juce::File& a, const juce::File& b)
 {
@@ -159,41 +135,87 @@ int runRender(Args args)
         return kExitFailure;
     }
 
-    juce::AudioFormatManager formats;
-    formats.registerBasicFormats();
-    auto fileStream = std::make_unique<juce::FileInputStream>(inFile);
-    if (!fileStream->openedOk())
+    juce::String openError;
+    auto input = AudioInput::open(inFile, openError);
+    if (input == nullptr)
     {
-        printError("cannot open input " + inFile.getFullPathName() + ": " +
-                   fileStream->getStatus().getErrorMessage());
+        printError(openError);
         return kExitFailure;
     }
-    auto* detector = new ShortReadDetector(std::move(fileStream));
-    std::unique_ptr<juce::AudioFormatReader> reader(
-        formats.createReaderFor(std::unique_ptr<juce::InputStream>(detector)));
-    if (reader == nullptr)
-    {
-        printError("input " + inFile.getFullPathName() +
-                   " is not a readable WAV, AIFF or FLAC file (unsupported or damaged)");
-        return kExitFailure;
-    }
-    const juce::String formatName = reader->getFormatName();
-    detector->armed = formatName.containsIgnoreCase("WAV") || formatName.containsIgnoreCase("AIFF");
+    auto* reader = &input->reader();
 
     const double rate = reader->sampleRate;
     const int numChannels = static_cast<int>(reader->numChannels);
     const juce::int64 length = reader->lengthInSamples;
-    if (rate <= 0 || numChannels <= 0 || length < 0)
-    {
-        printError("input " + inFile.getFullPathName() + " has no usable audio (rate " +
-                   juce::String(rate) + ", channels " + juce::String(numChannels) + ")");
-        return kExitFailure;
-    }
     if (numChannels > dsp::ChainProcessor::kMaxChannels)
     {
         printError("input has " + juce::String(numChannels) + " channels; at most " +
                    juce::String(dsp::ChainProcessor::kMaxChannels) + " are supported");
         return kExitFailure;
+    }
+
+    // Echo-cancellation stages: an exact inverse must be stable at this rate (refused before
+    // anything is written); non-causal ones run backwards over the whole file first.
+    bool hasNonCausal = false;
+    for (int i = 0; i < chainResult.chain.numStages; ++i)
+    {
+        const auto& spec = chainResult.chain.stages[static_cast<std::size_t>(i)];
+        if (!spec.enabled || spec.type != dsp::StageType::echoCancel)
+            continue;
+        if (spec.nonCausal)
+        {
+            hasNonCausal = true;
+            continue;
+        }
+        if (spec.echo.method == dsp::EchoMethod::exact)
+        {
+            const auto stability = dsp::checkEchoStability(spec.echo, rate);
+            if (!stability.stable)
+            {
+                printError(juce::File(chainPath).getFileName() + ": stage " + juce::String(i) +
+                           ": " + juce::String(stability.message));
+                return kExitFailure;
+            }
+        }
+    }
+    std::vector<std::vector<double>> whole; // the input, when a non-causal stage needs it all
+    if (hasNonCausal)
+    {
+        const auto total = static_cast<std::size_t>(length);
+        whole.assign(static_cast<std::size_t>(numChannels), std::vector<double>(total, 0.0));
+        juce::AudioBuffer<float> block(numChannels, 65536);
+        for (juce::int64 done = 0; done < length;)
+        {
+            const int n = static_cast<int>(std::min<juce::int64>(65536, length - done));
+            if (!input->read(block, n, done))
+            {
+                printError("input " + inFile.getFullPathName() +
+                           " is truncated or damaged: it ends before the length its header states");
+                return kExitFailure;
+            }
+            for (int ch = 0; ch < numChannels; ++ch)
+                for (int i = 0; i < n; ++i)
+                    whole[static_cast<std::size_t>(ch)][static_cast<std::size_t>(done + i)] =
+                        block.getSample(ch, i);
+            done += n;
+        }
+        for (int i = 0; i < chainResult.chain.numStages; ++i)
+        {
+            const auto& spec = chainResult.chain.stages[static_cast<std::size_t>(i)];
+            if (!spec.enabled || spec.type != dsp::StageType::echoCancel || !spec.nonCausal)
+                continue;
+            for (auto& channel : whole)
+            {
+                const auto result =
+                    dsp::cancelEchoNonCausal(spec.echo, rate, channel.data(), total);
+                if (!result.ok)
+                {
+                    printError(juce::File(chainPath).getFileName() + ": stage " + juce::String(i) +
+                               ": " + juce::String(result.message));
+                    return kExitFailure;
+                }
+            }
+        }
     }
 
     TempFileGuard temp;
@@ -247,7 +269,15 @@ int runRender(Args args)
             return 130;
         }
         const int n = static_cast<int>(std::min<juce::int64>(kBlock, length - done));
-        if (!reader->read(&buffer, 0, n, done, true, true) || detector->shortRead)
+        if (hasNonCausal)
+        {
+            for (int ch = 0; ch < numChannels; ++ch)
+                for (int i = 0; i < n; ++i)
+                    buffer.setSample(ch, i,
+                                     static_cast<float>(whole[static_cast<std::size_t>(ch)]
+                                                             [static_cast<std::size_t>(done + i)]));
+        }
+        else if (!input->read(buffer, n, done))
         {
             printError("input " + inFile.getFullPathName() +
                        " is truncated or damaged: it ends before the length its header states");

@@ -61,6 +61,7 @@ void printPolesZeros(const dsp::ChainSpec& chain, double rate, dsp::ChannelView 
     const bool product = dsp::viewIsProduct(chain, view);
     std::vector<std::complex<double>> chainZeros, chainPoles;
     double chainGain = 1.0;
+    bool allListed = true;
     std::cout << "{\"sample_rate\": " << number(rate) << ", \"channel\": \""
               << viewName.toStdString() << "\",\n \"stages\": [";
     for (int i = 0; i < chain.numStages; ++i)
@@ -79,9 +80,14 @@ void printPolesZeros(const dsp::ChainSpec& chain, double rate, dsp::ChannelView 
             std::cout << (j ? ", [" : "[") << number(c.b0) << ", " << number(c.b1) << ", "
                       << number(c.b2) << ", 1, " << number(c.a1) << ", " << number(c.a2) << "]";
         }
-        std::cout << "], \"zeros\": " << complexList(pz.zeros)
-                  << ", \"poles\": " << complexList(pz.poles) << ", \"gain\": " << number(pz.gain)
-                  << "}";
+        if (pz.listed)
+            std::cout << "], \"zeros\": " << complexList(pz.zeros)
+                      << ", \"poles\": " << complexList(pz.poles)
+                      << ", \"gain\": " << number(pz.gain) << "}";
+        else
+            std::cout << "], \"zeros\": null, \"poles\": null, \"note\": \"" << pz.note << "\"}";
+        if (!pz.listed && spec.enabled)
+            allListed = false;
         if (product && spec.enabled && dsp::stageInView(spec.channels, view))
         {
             chainZeros.insert(chainZeros.end(), pz.zeros.begin(), pz.zeros.end());
@@ -90,7 +96,9 @@ void printPolesZeros(const dsp::ChainSpec& chain, double rate, dsp::ChannelView 
         }
     }
     std::cout << "\n ],\n \"chain\": ";
-    if (product)
+    if (!allListed)
+        std::cout << "null, \"note\": \"a stage's roots are not listed; see the stages\"";
+    else if (product)
         std::cout << "{\"zeros\": " << complexList(chainZeros)
                   << ", \"poles\": " << complexList(chainPoles)
                   << ", \"gain\": " << number(chainGain) << "}";

@@ -3,3 +3,7 @@ set(KERF_DSP_TEST_SOURCES
   ${CMAKE_CURRENT_LIST_DIR}/PeakingDesignTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/SectionDesignTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/SystemFunctionTests.cpp)
+list(APPEND KERF_DSP_TEST_SOURCES
+  ${CMAKE_CURRENT_LIST_DIR}/CombTests.cpp
+  ${CMAKE_CURRENT_LIST_DIR}/EchoCancellerTests.cpp
+  ${CMAKE_CURRENT_LIST_DIR}/EchoEstimatorTests.cpp)

@@ -162,3 +162,50 @@ TEST_CASE("chain file: per-type field errors", "[chain]")
     CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "alignment": "bessel"})")
               .contains("'alignment'"));
 }
+
+TEST_CASE("chain file: echo_cancel stages", "[chain][echo]")
+{
+    // Source: README.md chain-file reference (echo_cancel fields and ranges).
+    using namespace kerf::dsp;
+    const auto r = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "method": "series", "terms": 6,
+       "reflections": [{"delay_ms": 12.7, "gain": 0.5}, {"delay_ms": 3.25, "gain": -0.3}]},
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6, "gain": 1.4}], "non_causal": true}]})");
+    INFO(r.error);
+    REQUIRE(r.ok);
+    const auto& a = r.chain.stages[0];
+    CHECK(a.type == StageType::echoCancel);
+    CHECK(a.echo.method == EchoMethod::series);
+    CHECK(a.echo.terms == 6);
+    CHECK(a.echo.numReflections == 2);
+    CHECK(a.echo.reflections[1].delayMs == 3.25);
+    CHECK(a.echo.reflections[1].gain == -0.3);
+    CHECK(r.chain.stages[1].nonCausal);
+    const auto back = parseChainJson(chainToJson(r.chain));
+    REQUIRE(back.ok);
+    CHECK(back.chain.stages[0] == r.chain.stages[0]);
+    CHECK(back.chain.stages[1] == r.chain.stages[1]);
+
+    auto err = [](const char* stage)
+    {
+        const auto res = parseChainJson(
+            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
+        REQUIRE_FALSE(res.ok);
+        return res.error;
+    };
+    CHECK(err(R"({"type": "echo_cancel", "reflections": []})").contains("'reflections'"));
+    CHECK(err(R"({"type": "echo_cancel", "reflections": [{"delay_ms": 0.1, "gain": 0.5}]})")
+              .contains("'delay_ms'"));
+    CHECK(err(R"({"type": "echo_cancel", "reflections": [{"delay_ms": 5, "gain": 9}]})")
+              .contains("'gain'"));
+    CHECK(err(R"({"type": "echo_cancel", "method": "series", "non_causal": true,
+                  "reflections": [{"delay_ms": 5, "gain": 0.5}]})")
+              .contains("'non_causal'"));
+    CHECK(
+        err(R"({"type": "echo_cancel", "freq_hz": 100, "reflections": [{"delay_ms": 5, "gain": 0.5}]})")
+            .contains("'freq_hz'"));
+    CHECK(err(R"({"type": "echo_cancel", "reflections": [{"delay_ms": 5, "gain": 0.5}]},
+                 {"type": "echo_cancel", "reflections": [{"delay_ms": 5, "gain": 0.5}]},
+                 {"type": "echo_cancel", "reflections": [{"delay_ms": 5, "gain": 0.5}]})")
+              .contains("at most"));
+}

@@ -1,9 +1,12 @@
 // The kerf command, run as a user would run it.
 #include "ChainFile.h"
+#include "Dsp/SpeechLikeSource.h"
 #include "Response/SystemFunction.h"
 
 #include <catch2/catch.hpp>
 #include <juce_audio_formats/juce_audio_formats.h>
+
+#include <random>
 
 using namespace kerf;
 
@@ -316,5 +319,133 @@ TEST_CASE("cli: response --poles, --channel and --plot", "[cli]")
     const unsigned char signature[] = {0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a};
     CHECK(std::memcmp(png.getData(), signature, 8) == 0);
     CHECK(runKerf({"response", "--chain", t["chain.json"].getFullPathName(), "--channel", "centre"})
+              .exitCode == 2);
+}
+
+TEST_CASE("cli: echo cancellation in render, unstable models refused, non-causal offline",
+          "[cli][echo]")
+{
+    // Source: the echo model y = x + a x[n - D] (issue definition); with |a| >= 1 the causal
+    // inverse is unstable (the root of 1 + a z^-D has radius |a|^(1/D) >= 1) and the
+    // time-reversed inverse is stable. Synthetic noise, invented echo values.
+    TempDir t;
+    const double rate = 48000.0;
+    const int n = 48000, d = 300;
+    std::mt19937 rng(99);
+    std::uniform_real_distribution<float> u(-0.2f, 0.2f);
+    std::vector<float> clean(static_cast<std::size_t>(n));
+    for (auto& v : clean)
+        v = u(rng);
+    auto echoed = [&](double a)
+    {
+        juce::AudioBuffer<float> b(1, n);
+        for (int i = 0; i < n; ++i)
+            b.setSample(
+                0, i,
+                static_cast<float>(clean[static_cast<std::size_t>(i)] +
+                                   (i >= d ? a * clean[static_cast<std::size_t>(i - d)] : 0.0)));
+        return b;
+    };
+    auto residualDb = [&](const juce::File& f, int from, int to)
+    {
+        auto reader = openWav(f);
+        juce::AudioBuffer<float> out(1, n);
+        reader->read(&out, 0, n, 0, true, true);
+        double e = 0.0, s = 0.0;
+        for (int i = from; i < to; ++i)
+        {
+            e += juce::square(out.getSample(0, i) - clean[static_cast<std::size_t>(i)]);
+            s += juce::square(clean[static_cast<std::size_t>(i)]);
+        }
+        return 10.0 * std::log10(e / s);
+    };
+
+    // A gentle echo, exact causal inverse.
+    writeWav(t["soft.wav"], echoed(0.5), rate, 32);
+    t["exact.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6.25, "gain": 0.5}]}]})");
+    auto r =
+        runKerf({"render", t["soft.wav"].getFullPathName(), t["soft-out.wav"].getFullPathName(),
+                 "--chain", t["exact.json"].getFullPathName()});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    CHECK(residualDb(t["soft-out.wav"], 0, n) < -100.0);
+
+    // A reflection stronger than the direct sound: the causal inverse is refused...
+    writeWav(t["strong.wav"], echoed(1.5), rate, 32);
+    t["strong.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6.25, "gain": 1.5}]}]})");
+    r = runKerf({"render", t["strong.wav"].getFullPathName(), t["bad-out.wav"].getFullPathName(),
+                 "--chain", t["strong.json"].getFullPathName()});
+    CHECK(r.exitCode != 0);
+    CHECK(r.output.contains("stage 0"));
+    CHECK_FALSE(t["bad-out.wav"].exists());
+
+    // ... and the offline, backwards-in-time inverse recovers the clean signal.
+    t["noncausal.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6.25, "gain": 1.5}], "non_causal": true}]})");
+    r = runKerf({"render", t["strong.wav"].getFullPathName(), t["nc-out.wav"].getFullPathName(),
+                 "--chain", t["noncausal.json"].getFullPathName()});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    // Away from the file's end (where the backwards recursion starts without the future).
+    const double nc = residualDb(t["nc-out.wav"], 0, n - 4800);
+    INFO("non-causal residual " << nc << " dB");
+    CHECK(nc < -60.0);
+}
+
+TEST_CASE("cli: echo-estimate finds a reflection, writes a chain that cancels it, reports none "
+          "for a dry recording",
+          "[cli][echo]")
+{
+    // Issue bars for one reflection (delay within 1 sample, gain within 0.05); ERLE as ITU-T
+    // G.168 defines it (echo power over residual echo power, clean signal known) >= 20 dB.
+    // Deterministic speech-like source (Tests/Dsp/SpeechLikeSource.h), invented echo values.
+    TempDir t;
+    const double rate = 48000.0, delaySamples = 609.6, gain = 0.5;
+    const auto clean = kerf::test::speechLike(rate, 10.0, 2026);
+    const auto late = kerf::test::delayedBySinc(clean, delaySamples, 32);
+    const int n = static_cast<int>(clean.size());
+    juce::AudioBuffer<float> wet(1, n), dry(1, n);
+    for (int i = 0; i < n; ++i)
+    {
+        dry.setSample(0, i, static_cast<float>(clean[static_cast<std::size_t>(i)]));
+        wet.setSample(0, i,
+                      static_cast<float>(clean[static_cast<std::size_t>(i)] +
+                                         gain * late[static_cast<std::size_t>(i)]));
+    }
+    writeWav(t["wet.wav"], wet, rate, 32);
+    writeWav(t["dry.wav"], dry, rate, 32);
+
+    auto r = runKerf({"echo-estimate", t["wet.wav"].getFullPathName(), "--json", "--write-chain",
+                      t["found.json"].getFullPathName()});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    const auto json = juce::JSON::parse(r.output.upToFirstOccurrenceOf("\n", false, false));
+    REQUIRE(json["reflections"].size() >= 1);
+    const auto first = json["reflections"][0];
+    CHECK(std::abs(static_cast<double>(first["delay_samples"]) - delaySamples) <= 1.0);
+    CHECK(std::abs(static_cast<double>(first["gain"]) - gain) <= 0.05);
+
+    r = runKerf({"render", t["wet.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                 "--chain", t["found.json"].getFullPathName()});
+    REQUIRE(r.exitCode == 0);
+    auto reader = openWav(t["out.wav"]);
+    juce::AudioBuffer<float> out(1, n);
+    reader->read(&out, 0, n, 0, true, true);
+    double echoPower = 0.0, residualPower = 0.0;
+    for (int i = 0; i < n; ++i)
+    {
+        echoPower += juce::square(gain * late[static_cast<std::size_t>(i)]);
+        residualPower += juce::square(out.getSample(0, i) - clean[static_cast<std::size_t>(i)]);
+    }
+    const double erle = 10.0 * std::log10(echoPower / residualPower);
+    INFO("ERLE " << erle << " dB");
+    CHECK(erle >= 20.0);
+
+    r = runKerf({"echo-estimate", t["dry.wav"].getFullPathName(), "--json"});
+    REQUIRE(r.exitCode == 0);
+    CHECK(juce::JSON::parse(r.output)["reflections"].size() == 0);
+    CHECK(runKerf({"echo-estimate", t["dry.wav"].getFullPathName(), "--max-reflections", "9"})
               .exitCode == 2);
 }

@@ -1,5 +1,6 @@
 // The processor's parameters and state, exercised directly.
 #include "ChainFile.h"
+#include "Dsp/SpeechLikeSource.h"
 #include "ExampleChains.h"
 #include "FactoryPresets.h"
 #include "PluginProcessor.h"
@@ -40,7 +41,8 @@ TEST_CASE("plugin: state round trip restores every parameter exactly", "[plugin]
     const auto pa = a.getParameters();
     const auto pb = b.getParameters();
     REQUIRE(pa.size() == pb.size());
-    REQUIRE(pa.size() == kNumSectionSlots * 10 + 3);
+    // 24 slots of 10, the echo stage (on, method, terms, 4 x delay and gain), 3 output.
+    REQUIRE(pa.size() == kNumSectionSlots * 10 + 3 + 2 * dsp::kMaxEchoReflections + 3);
     for (int i = 0; i < pa.size(); ++i)
     {
         auto* ra = dynamic_cast<juce::RangedAudioParameter*>(pa[i]);
@@ -211,4 +213,70 @@ TEST_CASE("plugin: every section type imports, exports and processes as the Dsp 
     for (int ch = 0; ch < 2; ++ch)
         for (int i = 0; i < 1024; ++i)
             CHECK(buffer.getSample(ch, i) == expected.getSample(ch, i));
+}
+
+TEST_CASE("plugin: listening for room echo proposes values that cancel it", "[plugin][echo]")
+{
+    // Issue bars for one reflection (delay within 1 sample, gain within 0.05) and ERLE as
+    // ITU-T G.168 defines it (echo power over residual echo power) >= 20 dB once applied.
+    // Deterministic speech-like source (Tests/Dsp/SpeechLikeSource.h); invented echo.
+    JuceGuard guard;
+    const double rate = 48000.0, delaySamples = 1201.7, gain = -0.45; // 25 ms
+    const int block = 512;
+    const auto clean = kerf::test::speechLike(rate, EchoCapture::kCaptureSeconds + 1.0, 77);
+    const auto late = kerf::test::delayedBySinc(clean, delaySamples, 32);
+    const int n = static_cast<int>(clean.size());
+
+    KerfProcessor p;
+    p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
+    p.setPlayConfigDetails(2, 2, rate, block);
+    p.prepareToPlay(rate, block);
+    auto play = [&](std::vector<float>* out)
+    {
+        juce::AudioBuffer<float> buffer(2, block);
+        juce::MidiBuffer midi;
+        for (int start = 0; start + block <= n; start += block)
+        {
+            for (int i = 0; i < block; ++i)
+            {
+                const auto k = static_cast<std::size_t>(start + i);
+                const float v = static_cast<float>(clean[k] + gain * late[k]);
+                buffer.setSample(0, i, v);
+                buffer.setSample(1, i, v);
+            }
+            p.processBlock(buffer, midi);
+            if (out != nullptr)
+                for (int i = 0; i < block; ++i)
+                    out->push_back(buffer.getSample(0, i));
+        }
+    };
+
+    p.echoCapture().start();
+    play(nullptr);
+    for (int waited = 0; p.echoCapture().state() != EchoCapture::State::ready && waited < 60000;
+         waited += 50)
+        juce::Thread::sleep(50);
+    REQUIRE(p.echoCapture().state() == EchoCapture::State::ready);
+    kerf::dsp::EchoEstimate estimate;
+    REQUIRE(p.echoCapture().takeProposal(estimate));
+    REQUIRE(estimate.reflections.size() >= 1);
+    INFO("found delay " << estimate.reflections[0].delaySamples << " gain "
+                        << estimate.reflections[0].gain);
+    CHECK(std::abs(estimate.reflections[0].delaySamples - delaySamples) <= 1.0);
+    CHECK(std::abs(estimate.reflections[0].gain - gain) <= 0.05);
+
+    p.applyEchoEstimate(estimate);
+    CHECK(p.state().getRawParameterValue(ids::echoOn)->load() == 1.0f);
+    p.reset();
+    std::vector<float> out;
+    play(&out);
+    double echoPower = 0.0, residualPower = 0.0;
+    for (std::size_t i = 0; i < out.size(); ++i)
+    {
+        echoPower += gain * late[i] * gain * late[i];
+        residualPower += (out[i] - clean[i]) * (out[i] - clean[i]);
+    }
+    const double erle = 10.0 * std::log10(echoPower / residualPower);
+    INFO("ERLE " << erle << " dB");
+    CHECK(erle >= 20.0);
 }

@@ -81,6 +81,7 @@ TEST_CASE("realtime: processing with changing parameters never allocates", "[plu
     std::mt19937 rng(seed);
     std::uniform_real_distribution<float> u(0.0f, 1.0f);
     auto params = p.getParameters();
+    p.echoCapture().start(); // the echo listener records on the audio thread meanwhile
     for (int block = 0; block < 400; ++block)
     {
         for (int k = 0; k < 4; ++k) // a few parameters move before every block
@@ -94,4 +95,5 @@ TEST_CASE("realtime: processing with changing parameters never allocates", "[plu
         inAudioCallback = false;
     }
     CHECK(allocationsInCallback.load() == 0);
+    CHECK(p.echoCapture().progress() > 0.0f); // it did record
 }

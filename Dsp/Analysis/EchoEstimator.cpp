@@ -1,0 +1,970 @@
+#include "EchoEstimator.h"
+
+#include <Eigen/Dense>
+#include <fftw3.h>
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+#include <memory>
+#include <mutex>
+#include <numbers>
+#include <numeric>
+
+namespace kerf::dsp
+{
+
+namespace
+{
+
+constexpr double kPi = std::numbers::pi;
+/// Fraction of frames (cepstrum) and blocks (refinement) left out as the quietest
+/// (ECHO-NOTES.md: quietest 30 % dropped; common practice for speech).
+constexpr double kDropQuiet = 0.3;
+/// Local SNR (power ratio) a band needs to take part in the refinement: noise in the fitted
+/// signal biases the least-squares gain towards zero by about (noise/signal) a/(1 - a^2), so
+/// only bands at least 20 dB above the noise floor are used.
+constexpr double kWeightSnr = 100.0;
+/// Analysis frame of the refinement pre-filter, samples, and its FIR half-length.
+constexpr int kWeightFrame = 2048;
+constexpr int kWeightHalf = 511;
+/// Refinement blocks for the activity mask, samples.
+constexpr std::size_t kMaskBlock = 2048;
+/// Cepstral peaks below this (Bonferroni) confidence are not examined at all.
+constexpr double kMinCepstralConfidence = 0.5;
+/// Most frames averaged into one cepstrum.
+constexpr double kMaxCepstrumFrames = 400.0;
+/// Candidates that refinement may turn down before the search stops.
+constexpr int kMaxRejections = 3;
+/// Local SNR, dB, from which a frequency bin takes part in the ripple fit (noise flattens the
+/// log ripple there; see kWeightSnr).
+constexpr double kBandSnrDb = 20.0;
+
+// ---- FFTW plans: creation is not thread-safe, so it happens once per size under a mutex ----
+
+struct FftPlans
+{
+    fftw_plan r2c = nullptr;
+    fftw_plan c2r = nullptr;
+};
+
+std::mutex& fftwPlannerMutex()
+{
+    static std::mutex m;
+    return m;
+}
+
+FftPlans plansFor(int n)
+{
+    std::lock_guard<std::mutex> lock(fftwPlannerMutex());
+    static std::map<int, FftPlans> cache;
+    auto it = cache.find(n);
+    if (it != cache.end())
+        return it->second;
+    double* in = fftw_alloc_real(static_cast<std::size_t>(n));
+    fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(n / 2 + 1));
+    FftPlans p;
+    p.r2c = fftw_plan_dft_r2c_1d(n, in, out, FFTW_ESTIMATE);
+    p.c2r = fftw_plan_dft_c2r_1d(n, out, in, FFTW_ESTIMATE);
+    fftw_free(in);
+    fftw_free(out);
+    cache.emplace(n, p);
+    return p;
+}
+
+/// An fftw_malloc'd array (same alignment as the planning arrays, for fftw_execute_dft_*).
+template <typename T> struct FftwArray
+{
+    T* p = nullptr;
+    explicit FftwArray(std::size_t n) { p = static_cast<T*>(fftw_malloc(sizeof(T) * n)); }
+    ~FftwArray() { fftw_free(p); }
+    FftwArray(const FftwArray&) = delete;
+    FftwArray& operator=(const FftwArray&) = delete;
+};
+
+int nextPow2(std::size_t v)
+{
+    int p = 1;
+    while (static_cast<std::size_t>(p) < v)
+        p <<= 1;
+    return p;
+}
+
+/// Periodic Hann window.
+std::vector<double> hann(int n)
+{
+    std::vector<double> w(static_cast<std::size_t>(n));
+    for (int i = 0; i < n; ++i)
+        w[static_cast<std::size_t>(i)] = 0.5 - 0.5 * std::cos(2.0 * kPi * i / n);
+    return w;
+}
+
+/// Value at fraction q (0..1) of a copy of v (nearest rank).
+double quantile(std::vector<double> v, double q)
+{
+    if (v.empty())
+        return 0.0;
+    const std::size_t k =
+        std::min(v.size() - 1, static_cast<std::size_t>(q * static_cast<double>(v.size())));
+    std::nth_element(v.begin(), v.begin() + static_cast<long>(k), v.end());
+    return v[k];
+}
+
+// ---- refinement: the exact inverse of the model and its sensitivities ----
+
+struct Refl
+{
+    double delaySamples;
+    double gain;
+};
+
+struct PathTaps
+{
+    int whole = 1;
+    int taps = 2;
+    double h[kMaxLagrangeOrder + 1] = {};
+    double dh[kMaxLagrangeOrder + 1] = {};
+};
+
+PathTaps pathFor(double delaySamples, int order)
+{
+    // The same split and taps as EchoCanceller, so the fit is of what the stage will do.
+    PathTaps p;
+    const DelaySplit d = splitDelay(delaySamples, DelayInterpolation::lagrange, order, 1);
+    p.whole = d.wholeSamples;
+    p.taps = order + 1;
+    lagrangeTaps(d.interpolatorSamples, order, p.h);
+    lagrangeTapDerivatives(d.interpolatorSamples, order, p.dh);
+    return p;
+}
+
+/// The refinement problem: the (pre-whitened) excerpt, a mask of active blocks, and scratch.
+struct Fit
+{
+    std::vector<double> in; // padded with `pad` leading zeros
+    std::size_t pad = 0;
+    std::size_t n = 0;
+    std::vector<double> active; // weight per kMaskBlock block (0: left out)
+    int order = 5;
+    std::vector<double> z;
+    std::vector<std::vector<double>> sens;
+    std::size_t numSens = 0;
+
+    /// z = H_inv(in) for the model; when sensitivities are wanted, also dz/da_k and dz/dD_k
+    /// for the reflections listed in `which` (in that order). Returns the masked energy of z.
+    double run(const std::vector<Refl>& model, const std::vector<int>& which, bool wantGain,
+               bool wantDelay)
+    {
+        const std::size_t total = pad + n;
+        std::vector<PathTaps> paths;
+        for (const auto& r : model)
+            paths.push_back(pathFor(r.delaySamples, order));
+        const std::size_t ns = which.size() * ((wantGain ? 1 : 0) + (wantDelay ? 1 : 0));
+        z.assign(total, 0.0);
+        if (sens.size() < ns)
+            sens.resize(ns); // a pool that never shrinks: no page-fault churn between runs
+        for (std::size_t i = 0; i < ns; ++i)
+            sens[i].assign(total, 0.0);
+        numSens = ns;
+        const std::size_t K = paths.size();
+        double energy = 0.0;
+        for (std::size_t t = pad; t < total; ++t)
+        {
+            // Model filter applied to a signal's past: sum_k a_k (L_k s)[t - M_k].
+            auto apply = [&](const std::vector<double>& s) noexcept
+            {
+                double acc = 0.0;
+                for (std::size_t k = 0; k < K; ++k)
+                {
+                    const PathTaps& p = paths[k];
+                    const double* b = s.data() + t - static_cast<std::size_t>(p.whole);
+                    double v = 0.0;
+                    for (int i = 0; i < p.taps; ++i)
+                        v += p.h[i] * b[-i];
+                    acc += model[k].gain * v;
+                }
+                return acc;
+            };
+            const double zt = in[t] - apply(z);
+            z[t] = zt;
+            std::size_t si = 0;
+            for (int k : which)
+            {
+                const PathTaps& p = paths[static_cast<std::size_t>(k)];
+                const double* b = z.data() + t - static_cast<std::size_t>(p.whole);
+                if (wantGain)
+                {
+                    double v = 0.0;
+                    for (int i = 0; i < p.taps; ++i)
+                        v += p.h[i] * b[-i];
+                    sens[si][t] = -v - apply(sens[si]);
+                    ++si;
+                }
+                if (wantDelay)
+                {
+                    double v = 0.0;
+                    for (int i = 0; i < p.taps; ++i)
+                        v += p.dh[i] * b[-i];
+                    sens[si][t] = -model[static_cast<std::size_t>(k)].gain * v - apply(sens[si]);
+                    ++si;
+                }
+            }
+            energy += active[(t - pad) / kMaskBlock] * zt * zt;
+        }
+        return energy;
+    }
+
+    /// Normal equations of the masked least-squares problem in the sensitivities.
+    void normalEquations(Eigen::MatrixXd& jtj, Eigen::VectorXd& jtz) const
+    {
+        const std::size_t m = numSens;
+        jtj = Eigen::MatrixXd::Zero(static_cast<long>(m), static_cast<long>(m));
+        jtz = Eigen::VectorXd::Zero(static_cast<long>(m));
+        for (std::size_t t = pad; t < pad + n; ++t)
+        {
+            const double wt = active[(t - pad) / kMaskBlock];
+            if (wt == 0.0)
+                continue;
+            for (std::size_t i = 0; i < m; ++i)
+            {
+                const double si = wt * sens[i][t];
+                jtz[static_cast<long>(i)] += si * z[t];
+                for (std::size_t j = i; j < m; ++j)
+                    jtj(static_cast<long>(i), static_cast<long>(j)) += si * sens[j][t];
+            }
+        }
+        for (std::size_t i = 0; i < m; ++i)
+            for (std::size_t j = 0; j < i; ++j)
+                jtj(static_cast<long>(i), static_cast<long>(j)) =
+                    jtj(static_cast<long>(j), static_cast<long>(i));
+    }
+};
+
+/// Levenberg-Marquardt on every gain and delay of the model (K. Levenberg 1944,
+/// D. W. Marquardt 1963): minimises the masked energy of the cancelled output.
+double refineAll(Fit& fit, std::vector<Refl>& model, double minD, double maxD, int iterations,
+                 std::size_t firstFree = 0)
+{
+    std::vector<int> all;
+    for (std::size_t k = firstFree; k < model.size(); ++k)
+        all.push_back(static_cast<int>(k));
+    double lambda = 1.0e-3;
+    double energy = fit.run(model, all, true, true);
+    for (int it = 0; it < iterations; ++it)
+    {
+        Eigen::MatrixXd jtj;
+        Eigen::VectorXd jtz;
+        fit.normalEquations(jtj, jtz);
+        bool accepted = false;
+        double largestStep = 0.0;
+        while (lambda < 1.0e8)
+        {
+            Eigen::MatrixXd a = jtj;
+            for (long i = 0; i < a.rows(); ++i)
+                a(i, i) += lambda * std::max(jtj(i, i), 1e-300);
+            const Eigen::VectorXd step = a.ldlt().solve(-jtz);
+            std::vector<Refl> trial = model;
+            largestStep = 0.0;
+            for (std::size_t j = 0; j < all.size(); ++j)
+            {
+                const std::size_t k = static_cast<std::size_t>(all[j]);
+                const double da = step[static_cast<long>(2 * j)];
+                const double dd = std::clamp(step[static_cast<long>(2 * j + 1)], -1.0, 1.0);
+                trial[k].gain = std::clamp(model[k].gain + da, -0.99, 0.99);
+                trial[k].delaySamples = std::clamp(model[k].delaySamples + dd, minD, maxD);
+                largestStep = std::max({largestStep, std::abs(da), std::abs(dd) * 0.01});
+            }
+            const double e = fit.run(trial, {}, false, false);
+            if (e < energy)
+            {
+                model = trial;
+                energy = e;
+                lambda = std::max(lambda / 4.0, 1.0e-7);
+                accepted = true;
+                break;
+            }
+            lambda *= 4.0;
+        }
+        if (!accepted || largestStep < 1.0e-6)
+            break;
+        energy = fit.run(model, all, true, true);
+    }
+    return energy;
+}
+
+/// Robust per-frame refinement: with the other reflections held, each active frame of
+/// kRobustBlock samples gives its own Gauss-Newton step for one reflection's gain and delay;
+/// the median step over frames is taken. An echo is the same in every frame, while the
+/// source's own correlation at the echo lag (a pitch period that happens to match, a formant
+/// ringing) is there in some frames only: the median ignores those, where a least-squares fit
+/// over the whole excerpt would be pulled by them (common practice: median of local
+/// estimates as a robust location estimate).
+double refineRobust(Fit& fit, std::vector<Refl>& model, double minD, double maxD, int iterations)
+{
+    constexpr std::size_t kRobustBlock = 4096;
+    double consistency = 0.0;
+    for (int it = 0; it < iterations; ++it)
+        for (std::size_t k = 0; k < model.size(); ++k)
+        {
+            fit.run(model, {static_cast<int>(k)}, true, true);
+            std::vector<double> da, dd;
+            for (std::size_t b0 = 0; b0 + kRobustBlock <= fit.n; b0 += kRobustBlock)
+            {
+                double aa = 0, ad = 0, ddd = 0, az = 0, dz = 0, wsum = 0;
+                for (std::size_t i = b0; i < b0 + kRobustBlock; ++i)
+                {
+                    const double w = fit.active[i / kMaskBlock];
+                    if (w == 0.0)
+                        continue;
+                    const std::size_t t = fit.pad + i;
+                    const double sa = fit.sens[0][t], sd = fit.sens[1][t], zt = fit.z[t];
+                    aa += w * sa * sa;
+                    ad += w * sa * sd;
+                    ddd += w * sd * sd;
+                    az += w * sa * zt;
+                    dz += w * sd * zt;
+                    wsum += w;
+                }
+                const double det = aa * ddd - ad * ad;
+                if (wsum == 0.0 || !(det > 1e-12 * aa * ddd))
+                    continue;
+                da.push_back(-(ddd * az - ad * dz) / det);
+                dd.push_back(-(aa * dz - ad * az) / det);
+            }
+            if (da.size() < 5)
+                return consistency;
+            model[k].gain = std::clamp(model[k].gain + quantile(da, 0.5), -0.99, 0.99);
+            if (k + 1 == model.size())
+            {
+                // Share of frames whose own estimate agrees with the median within half the
+                // gain: an echo is in every frame, the source's own correlation is not.
+                int agree = 0;
+                const double m = quantile(da, 0.5);
+                for (double v : da)
+                    agree += std::abs(v - m) < 0.5 * std::abs(model[k].gain);
+                consistency = static_cast<double>(agree) / static_cast<double>(da.size());
+            }
+            model[k].delaySamples = std::clamp(
+                model[k].delaySamples + std::clamp(quantile(dd, 0.5), -1.0, 1.0), minD, maxD);
+        }
+    return consistency;
+}
+
+/// Start for a new reflection: a grid of delays around the cepstral peak, each with a few
+/// Gauss-Newton steps on its gain alone; returns the best (delay, gain) by output energy.
+Refl initialiseNew(Fit& fit, const std::vector<Refl>& model, Refl start, double minD, double maxD)
+{
+    Refl best = start;
+    double bestE = INFINITY;
+    for (int g = -2; g <= 2; ++g)
+    {
+        std::vector<Refl> m = model;
+        m.push_back({std::clamp(start.delaySamples + 0.4 * g, minD, maxD), start.gain});
+        const int k = static_cast<int>(m.size()) - 1;
+        double e = 0.0;
+        for (int it = 0; it < 2; ++it)
+        {
+            e = fit.run(m, {k}, true, false);
+            Eigen::MatrixXd jtj;
+            Eigen::VectorXd jtz;
+            fit.normalEquations(jtj, jtz);
+            const double num = jtz[0], den = jtj(0, 0);
+            if (den <= 0.0)
+                break;
+            m.back().gain = std::clamp(m.back().gain - num / den, -0.95, 0.95);
+        }
+        e = fit.run(m, {}, false, false);
+        if (e < bestE)
+        {
+            bestE = e;
+            best = m.back();
+        }
+    }
+    return best;
+}
+
+/// Refinement pre-filter: whitens the recording where it stands at least kWeightSnr above its
+/// noise floor and removes the other bands (an LTI filter commutes with the echo model, so the
+/// echo parameters are unchanged; whitening keeps the source's own correlation at the echo lag
+/// from biasing the fit, removing noisy bands keeps noise from biasing it). The noise floor is
+/// the mean spectrum of the quietest 10 % of frames (pauses; common practice). Returns the
+/// filtered signal, aligned with x (zero-phase FIR, Hann-windowed, by FFT convolution).
+std::vector<double> weightedWhitening(const std::vector<float>& x, int lifterLags)
+{
+    const int F = kWeightFrame;
+    const std::size_t Fs = static_cast<std::size_t>(F), bins = Fs / 2 + 1, hop = Fs / 2;
+    const std::size_t n = x.size();
+    const std::vector<double> w = hann(F);
+    std::vector<std::size_t> starts;
+    for (std::size_t s0 = 0; s0 + Fs <= n; s0 += hop)
+        starts.push_back(s0);
+    if (starts.empty())
+        starts.push_back(0);
+    std::vector<double> energy(starts.size(), 0.0);
+    for (std::size_t f = 0; f < starts.size(); ++f)
+        for (std::size_t i = starts[f]; i < std::min(n, starts[f] + Fs); ++i)
+            energy[f] += static_cast<double>(x[i]) * x[i];
+    const double activeThr = quantile(energy, kDropQuiet);
+    const double quietThr = quantile(energy, 0.1);
+    const FftPlans plans = plansFor(F);
+    FftwArray<double> frame(Fs);
+    FftwArray<fftw_complex> spec(bins);
+    std::vector<double> py(bins, 0.0), pn(bins, 0.0);
+    int na = 0, nq = 0;
+    for (std::size_t f = 0; f < starts.size(); ++f)
+    {
+        const bool active = energy[f] > activeThr, quiet = energy[f] <= quietThr;
+        if (!active && !quiet)
+            continue;
+        for (std::size_t i = 0; i < Fs; ++i)
+            frame.p[i] = starts[f] + i < n ? w[i] * x[starts[f] + i] : 0.0;
+        fftw_execute_dft_r2c(plans.r2c, frame.p, spec.p);
+        auto& acc = active ? py : pn;
+        for (std::size_t k = 0; k < bins; ++k)
+            acc[k] += spec.p[k][0] * spec.p[k][0] + spec.p[k][1] * spec.p[k][1];
+        (active ? na : nq)++;
+    }
+    // Smooth both spectra by low-quefrency liftering (cepstral smoothing; Childers et al.
+    // 1977): keep quefrencies below lifterLags, well under the shortest echo searched, so that
+    // the whitening follows the source's envelope but not the echo's comb ripple (whitening
+    // the ripple would cancel part of the echo before the fit sees it).
+    for (auto* p : {&py, &pn})
+    {
+        const int cnt = p == &py ? na : nq;
+        for (std::size_t k = 0; k < bins; ++k)
+        {
+            spec.p[k][0] = std::log((*p)[k] / std::max(1, cnt) + 1e-300);
+            spec.p[k][1] = 0.0;
+        }
+        fftw_execute_dft_c2r(plans.c2r, spec.p, frame.p);
+        for (int q = 0; q < F; ++q)
+        {
+            const int aq = std::min(q, F - q);
+            const double lift = aq < lifterLags ? 0.5 + 0.5 * std::cos(kPi * aq / lifterLags) : 0.0;
+            frame.p[q] *= lift / F;
+        }
+        fftw_execute_dft_r2c(plans.r2c, frame.p, spec.p);
+        for (std::size_t k = 0; k < bins; ++k)
+            (*p)[k] = std::exp(spec.p[k][0]);
+    }
+    double peak = 0.0;
+    for (std::size_t k = 0; k < bins; ++k)
+        peak = std::max(peak, py[k]);
+    std::vector<double> gainK(bins, 0.0);
+    int passed = 0;
+    for (std::size_t k = 1; k + 1 < bins; ++k)
+        if (py[k] > kWeightSnr * pn[k] && py[k] > 1e-12 * peak)
+        {
+            gainK[k] = 1.0 / std::sqrt(py[k]);
+            ++passed;
+        }
+    if (passed < 8) // no band clear of the noise: plain whitening
+        for (std::size_t k = 1; k + 1 < bins; ++k)
+            gainK[k] = 1.0 / std::sqrt(py[k] + 1e-12 * peak + 1e-300);
+    // Zero-phase FIR by frequency sampling, Hann-windowed to 2 kWeightHalf + 1 taps.
+    for (std::size_t k = 0; k < bins; ++k)
+    {
+        spec.p[k][0] = gainK[k];
+        spec.p[k][1] = 0.0;
+    }
+    fftw_execute_dft_c2r(plans.c2r, spec.p, frame.p);
+    const int L = 2 * kWeightHalf + 1;
+    std::vector<double> h(static_cast<std::size_t>(L));
+    for (int m = -kWeightHalf; m <= kWeightHalf; ++m)
+    {
+        const double win = 0.5 + 0.5 * std::cos(kPi * m / (kWeightHalf + 1));
+        h[static_cast<std::size_t>(m + kWeightHalf)] = win * frame.p[(m + F) % F] / F;
+    }
+    // FFT convolution of the whole signal.
+    const int N = nextPow2(n + static_cast<std::size_t>(L));
+    const std::size_t Ns = static_cast<std::size_t>(N), nb = Ns / 2 + 1;
+    const FftPlans big = plansFor(N);
+    FftwArray<double> a(Ns), b(Ns);
+    FftwArray<fftw_complex> A(nb), B(nb);
+    for (std::size_t i = 0; i < Ns; ++i)
+    {
+        a.p[i] = i < n ? static_cast<double>(x[i]) : 0.0;
+        b.p[i] = i < static_cast<std::size_t>(L) ? h[i] : 0.0;
+    }
+    fftw_execute_dft_r2c(big.r2c, a.p, A.p);
+    fftw_execute_dft_r2c(big.r2c, b.p, B.p);
+    for (std::size_t k = 0; k < nb; ++k)
+    {
+        const double re = A.p[k][0] * B.p[k][0] - A.p[k][1] * B.p[k][1];
+        const double im = A.p[k][0] * B.p[k][1] + A.p[k][1] * B.p[k][0];
+        A.p[k][0] = re / N;
+        A.p[k][1] = im / N;
+    }
+    fftw_execute_dft_c2r(big.c2r, A.p, a.p);
+    std::vector<double> out(n);
+    for (std::size_t i = 0; i < n; ++i)
+        out[i] = a.p[i + kWeightHalf];
+    return out;
+}
+
+/// Hann-window overlap rho(D) = sum w[n] w[n + D] / sum w^2: the share of an echo at lag D
+/// that stays inside one frame (the frame-truncation bias of the cepstral peak).
+double windowOverlap(const std::vector<double>& w, double delaySamples)
+{
+    const int d0 = static_cast<int>(std::floor(delaySamples));
+    const double f = delaySamples - d0;
+    auto at = [&](int d)
+    {
+        double s = 0.0;
+        for (std::size_t i = 0; i + static_cast<std::size_t>(d) < w.size(); ++i)
+            s += w[i] * w[i + static_cast<std::size_t>(d)];
+        return s;
+    };
+    const double e = at(0);
+    return ((1.0 - f) * at(d0) + f * at(d0 + 1)) / e;
+}
+
+/// Candidate from a cepstrum: the lag between qmin and qmax where |c| stands highest above
+/// the local level of the cepstrum (RMS over a window around the lag, the peak's own lobe
+/// left out), its signed value and that ratio (a z-score).
+struct Candidate
+{
+    int lag = 0;
+    double delaySamples = 0.0;
+    double value = 0.0; // signed c at the peak
+    double z = 0.0;     // |c| / local RMS
+    int lagsSearched = 0;
+};
+
+Candidate findPeak(const std::vector<double>& c, int qmin, int qmax,
+                   const std::vector<Refl>& exclude, int halfWidth)
+{
+    Candidate best;
+    const int size = static_cast<int>(c.size());
+    qmax = std::min(qmax, size - 2);
+    qmin = std::max(qmin, 1);
+    if (qmax <= qmin)
+        return best;
+    double bestAbs = 0.0;
+    best.lagsSearched = qmax - qmin + 1;
+    for (int q = qmin; q <= qmax; ++q)
+    {
+        bool skip = false;
+        for (const auto& r : exclude)
+            if (std::abs(q - r.delaySamples) <= 2.0 * halfWidth + 1.0)
+                skip = true;
+        if (skip)
+            continue;
+        // The largest |c| is the candidate (after the low-quefrency lifter the cepstrum's
+        // spread is roughly even); its z-score against the local level gives the confidence.
+        const double v = std::abs(c[static_cast<std::size_t>(q)]);
+        if (v > bestAbs)
+        {
+            bestAbs = v;
+            best.lag = q;
+        }
+    }
+    if (best.lag == 0)
+        return best;
+    // z-score against the spread of the whole searched range: 1.4826 x median |c| (robust
+    // sigma of Gaussian noise; common practice).
+    std::vector<double> mags;
+    for (int q = qmin; q <= qmax; ++q)
+        mags.push_back(std::abs(c[static_cast<std::size_t>(q)]));
+    const double sigma = 1.4826 * quantile(mags, 0.5);
+    best.z = sigma > 0.0 ? bestAbs / sigma : 0.0;
+    const auto at = [&](int q) { return c[static_cast<std::size_t>(std::clamp(q, 0, size - 1))]; };
+    const double sgn = at(best.lag) >= 0.0 ? 1.0 : -1.0;
+    // Parabolic interpolation of the peak (common practice).
+    const double ym = sgn * at(best.lag - 1), y0 = sgn * at(best.lag), yp = sgn * at(best.lag + 1);
+    const double den = ym - 2.0 * y0 + yp;
+    const double off = den < 0.0 ? std::clamp(0.5 * (ym - yp) / den, -0.5, 0.5) : 0.0;
+    best.delaySamples = best.lag + off;
+    best.value = at(best.lag);
+    return best;
+}
+
+/// Confidence from the peak's z-score: one minus the Bonferroni bound on the chance that
+/// Gaussian noise of the same sigma puts a peak this high anywhere among the searched lags.
+double confidenceFromZ(double z, int lags)
+{
+    const double pFalse = static_cast<double>(lags) * std::erfc(z / std::sqrt(2.0));
+    return std::clamp(1.0 - pFalse, 0.0, 1.0);
+}
+
+// ---- the frame-averaged log spectrum and the fit of the echo's ripple in it ----
+
+/// Frame statistics of a recording at frame size F (Hann, hop F/2): the mean log power
+/// spectrum of the active frames (the quietest kDropQuiet left out), and the mean power of
+/// the active and of the quietest 10 % of frames (the noise floor).
+struct SpectralStats
+{
+    int F = 0;
+    std::vector<double> meanLog, activePower, quietPower;
+    int used = 0, quiet = 0;
+};
+
+SpectralStats spectralStats(const float* mono, std::size_t n, int F, double dropQuietFraction)
+{
+    SpectralStats st;
+    st.F = F;
+    const std::size_t Fs = static_cast<std::size_t>(F), hop = Fs / 2, bins = Fs / 2 + 1;
+    const FftPlans plans = plansFor(F);
+    const std::vector<double> w = hann(F);
+    std::vector<std::size_t> starts;
+    if (n <= Fs)
+        starts.push_back(0);
+    else
+        for (std::size_t s0 = 0; s0 + Fs <= n; s0 += hop)
+            starts.push_back(s0);
+    // Frame energies from the energies of hop-long blocks (a frame is two blocks).
+    std::vector<double> blockEnergy((n + hop - 1) / hop + 2, 0.0);
+    for (std::size_t i = 0; i < n; ++i)
+        blockEnergy[i / hop] += static_cast<double>(mono[i]) * mono[i];
+    std::vector<double> energy(starts.size());
+    for (std::size_t f = 0; f < starts.size(); ++f)
+        energy[f] = blockEnergy[starts[f] / hop] + blockEnergy[starts[f] / hop + 1];
+    double threshold = starts.size() > 3 ? quantile(energy, dropQuietFraction) : -1.0;
+    const double quietThreshold = starts.size() > 3 ? quantile(energy, 0.1) : -1.0;
+    // Long recordings: at most kMaxCepstrumFrames active frames, the loudest (the average
+    // hardly changes beyond a few hundred frames; the cost stays bounded).
+    if (starts.size() > 3 &&
+        static_cast<double>(starts.size()) * (1.0 - dropQuietFraction) > kMaxCepstrumFrames)
+        threshold =
+            std::max(threshold, quantile(energy, 1.0 - kMaxCepstrumFrames /
+                                                           static_cast<double>(starts.size())));
+    FftwArray<double> frame(Fs);
+    FftwArray<fftw_complex> spec(bins);
+    st.meanLog.assign(bins, 0.0);
+    st.activePower.assign(bins, 0.0);
+    st.quietPower.assign(bins, 0.0);
+    for (std::size_t f = 0; f < starts.size(); ++f)
+    {
+        const bool active = energy[f] > threshold && energy[f] > 0.0;
+        const bool quiet = energy[f] <= quietThreshold;
+        if (!active && !quiet)
+            continue;
+        const std::size_t s0 = starts[f];
+        for (std::size_t i = 0; i < Fs; ++i)
+            frame.p[i] = s0 + i < n ? w[i] * mono[s0 + i] : 0.0;
+        fftw_execute_dft_r2c(plans.r2c, frame.p, spec.p);
+        if (active)
+        {
+            const double eps = 1.0e-12 * energy[f] + 1.0e-30;
+            for (std::size_t k = 0; k < bins; ++k)
+            {
+                const double p = spec.p[k][0] * spec.p[k][0] + spec.p[k][1] * spec.p[k][1];
+                st.meanLog[k] += std::log(p + eps);
+                st.activePower[k] += p;
+            }
+            ++st.used;
+        }
+        else
+        {
+            for (std::size_t k = 0; k < bins; ++k)
+                st.quietPower[k] += spec.p[k][0] * spec.p[k][0] + spec.p[k][1] * spec.p[k][1];
+            ++st.quiet;
+        }
+    }
+    for (std::size_t k = 0; k < bins; ++k)
+    {
+        st.meanLog[k] /= std::max(1, st.used);
+        st.activePower[k] /= std::max(1, st.used);
+        st.quietPower[k] /= std::max(1, st.quiet);
+    }
+    return st;
+}
+
+/// Quefrency-domain operations on a half spectrum v[0..F/2] of an even real sequence.
+struct Quefrency
+{
+    int F;
+    FftPlans plans;
+    FftwArray<double> t;
+    FftwArray<fftw_complex> c;
+    explicit Quefrency(int size)
+        : F(size), plans(plansFor(size)), t(static_cast<std::size_t>(size)),
+          c(static_cast<std::size_t>(size / 2 + 1))
+    {
+    }
+
+    /// Cepstrum of v: IFFT of the half spectrum, c[q] for q = 0..F/2.
+    std::vector<double> cepstrum(const std::vector<double>& v)
+    {
+        for (std::size_t k = 0; k < v.size(); ++k)
+        {
+            c.p[k][0] = v[k];
+            c.p[k][1] = 0.0;
+        }
+        fftw_execute_dft_c2r(plans.c2r, c.p, t.p);
+        std::vector<double> out(v.size());
+        for (std::size_t q = 0; q < v.size(); ++q)
+            out[q] = t.p[q] / F;
+        return out;
+    }
+
+    /// v with quefrencies below `cut` removed (Hann taper): keep = false gives the high-pass
+    /// part, keep = true the smooth (low-quefrency) part.
+    void lifter(std::vector<double>& v, int cut, bool keepLow)
+    {
+        for (std::size_t k = 0; k < v.size(); ++k)
+        {
+            c.p[k][0] = v[k];
+            c.p[k][1] = 0.0;
+        }
+        fftw_execute_dft_c2r(plans.c2r, c.p, t.p);
+        for (int q = 0; q < F; ++q)
+        {
+            const int aq = std::min(q, F - q);
+            const double low = aq < cut ? 0.5 + 0.5 * std::cos(kPi * aq / cut) : 0.0;
+            t.p[q] *= (keepLow ? low : 1.0 - low) / F;
+        }
+        fftw_execute_dft_r2c(plans.r2c, t.p, c.p);
+        for (std::size_t k = 0; k < v.size(); ++k)
+            v[k] = c.p[k][0];
+    }
+};
+
+} // namespace
+
+std::vector<double> averagedPowerCepstrum(const float* mono, std::size_t n, int frameSize,
+                                          double dropQuietFraction, int* framesUsed)
+{
+    // Real cepstrum of the mean log power spectrum: c[q] = (1/F) sum_k mean(ln|X_k|^2)
+    // e^{j 2 pi k q / F} (Bogert et al. 1963), = the mean of the frames' cepstra.
+    const SpectralStats st = spectralStats(mono, n, frameSize, dropQuietFraction);
+    if (framesUsed)
+        *framesUsed = st.used;
+    Quefrency qf(frameSize);
+    return qf.cepstrum(st.meanLog);
+}
+
+EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateHz,
+                            const EchoEstimatorOptions& opt)
+{
+    EchoEstimate out;
+    out.sampleRateHz = sampleRateHz;
+    const int order = std::clamp(opt.interpolationOrder, 1, kMaxLagrangeOrder);
+    const double minMs = std::max(opt.minDelayMs, kMinEchoDelayMs);
+    const double maxMs = std::clamp(opt.maxDelayMs, minMs, kMaxEchoDelayMs);
+    const double minD = std::max(minMs * 1e-3 * sampleRateHz, 2.0);
+    const double maxD = maxMs * 1e-3 * sampleRateHz;
+    const int maxRefl = std::clamp(opt.maxReflections, 0, kMaxEchoReflections);
+    if (n < 1024 || maxRefl == 0)
+    {
+        out.message = "recording too short";
+        return out;
+    }
+    // Frames long enough that the longest echo mostly stays inside one frame.
+    const int F = std::clamp(nextPow2(static_cast<std::size_t>(4.0 * maxD)), 2048, 1 << 17);
+    const std::vector<double> window = hann(F);
+    const int qmin = static_cast<int>(std::floor(minD));
+    const int qmax = static_cast<int>(std::ceil(maxD));
+
+    // Refinement excerpt: the loudest stretch of at most refineSeconds.
+    const std::size_t len =
+        std::min(n, static_cast<std::size_t>(std::max(1.0, opt.refineSeconds) * sampleRateHz));
+    std::size_t start = 0;
+    if (len < n)
+    {
+        // energies of quarter-second blocks, then the loudest run of whole blocks
+        const std::size_t step =
+            std::max<std::size_t>(1, static_cast<std::size_t>(0.25 * sampleRateHz));
+        std::vector<double> be(n / step + 1, 0.0);
+        for (std::size_t i = 0; i < n; ++i)
+            be[i / step] += static_cast<double>(mono[i]) * mono[i];
+        const std::size_t span = len / step;
+        double run = 0.0, best = -1.0;
+        for (std::size_t b = 0; b < be.size(); ++b)
+        {
+            run += be[b];
+            if (b >= span)
+                run -= be[b - span];
+            if (b + 1 >= span && run > best && (b + 1 - span) * step + len <= n)
+            {
+                best = run;
+                start = (b + 1 - span) * step;
+            }
+        }
+    }
+    std::vector<float> excerpt(mono + start, mono + start + len);
+
+    // Low-quefrency lifter: below the shortest delay searched, so spectral envelopes follow
+    // the source but not an echo's ripple.
+    const int lifterCut = std::clamp(static_cast<int>(0.8 * minD), 4, F / 8);
+
+    // Refinement problem: the excerpt, pre-filtered (weightedWhitening), and its active blocks.
+    Fit fit;
+    fit.order = order;
+    fit.n = len;
+    fit.pad = static_cast<std::size_t>(std::ceil(maxD)) + static_cast<std::size_t>(order) + 4;
+    {
+        const std::vector<double> filtered = weightedWhitening(excerpt, lifterCut);
+        fit.in.assign(fit.pad + len, 0.0);
+        std::copy(filtered.begin(), filtered.end(), fit.in.begin() + static_cast<long>(fit.pad));
+        const std::size_t blocks = (len + kMaskBlock - 1) / kMaskBlock;
+        std::vector<double> be(blocks, 0.0);
+        for (std::size_t i = 0; i < len; ++i)
+            be[i / kMaskBlock] += static_cast<double>(excerpt[i]) * excerpt[i];
+        const double thr = quantile(be, kDropQuiet);
+        fit.active.assign(blocks + 1, 0.0);
+        for (std::size_t b = 0; b < blocks; ++b)
+            fit.active[b] = be[b] > thr ? 1.0 : 0.0;
+    }
+
+    // Frame-averaged log spectrum of the whole recording, and the band clear of the noise
+    // (smoothed active-frame spectrum at least kBandSnrDb over the quietest frames').
+    const SpectralStats st = spectralStats(mono, n, F, kDropQuiet);
+    Quefrency qf(F);
+    std::vector<double> band;
+    double bandShare = 0.0;
+    {
+        const std::size_t bins = st.meanLog.size();
+        std::vector<double> la(bins), lq(bins);
+        double peak = 0.0;
+        for (std::size_t k = 0; k < bins; ++k)
+            peak = std::max(peak, st.activePower[k]);
+        for (std::size_t k = 0; k < bins; ++k)
+        {
+            la[k] = std::log(st.activePower[k] + 1e-300);
+            lq[k] = std::log(st.quietPower[k] + 1e-300);
+        }
+        qf.lifter(la, lifterCut, true);
+        qf.lifter(lq, lifterCut, true);
+        band.assign(bins, 0.0);
+        double total = 0.0;
+        const double toDb = 10.0 / std::log(10.0);
+        for (std::size_t k = 1; k + 1 < bins; ++k)
+        {
+            const double snrDb = toDb * (la[k] - lq[k]);
+            const double levelDb = toDb * (la[k] - std::log(peak + 1e-300));
+            // soft edge over 6 dB; never more than 70 dB under the peak
+            band[k] = std::clamp((snrDb - kBandSnrDb) / 6.0, 0.0, 1.0) *
+                      std::clamp((levelDb + 70.0) / 6.0, 0.0, 1.0);
+            total += band[k];
+        }
+        if (st.quiet == 0 || total < 16.0)
+        {
+            total = 0.0; // no noise floor to measure: the top 50 dB of the spectrum
+            for (std::size_t k = 1; k + 1 < bins; ++k)
+            {
+                band[k] =
+                    std::clamp((toDb * (la[k] - std::log(peak + 1e-300)) + 50.0) / 6.0, 0.0, 1.0);
+                total += band[k];
+            }
+        }
+        bandShare = total / static_cast<double>(bins);
+    }
+    // Width of a cepstral peak when only a share of the band carries the ripple.
+    const int bandHalfWidth =
+        std::clamp(static_cast<int>(std::ceil(1.0 / std::max(bandShare, 1e-3))), 2, 32);
+
+    std::vector<Refl> model, rejected;
+    std::vector<double> confidences;
+    int rejections = 0;
+    for (int r = 0; r < maxRefl; ++r)
+    {
+        std::vector<double> logSpec;
+        if (model.empty())
+            logSpec = st.meanLog;
+        else
+        {
+            // Cancel what is known, then look again (the strongest's rahmonics are gone).
+            EchoCancelSettings s;
+            for (const auto& m : model)
+                s.reflections[static_cast<std::size_t>(s.numReflections++)] = {
+                    m.delaySamples * 1e3 / sampleRateHz, m.gain};
+            s.interpolationOrder = order;
+            EchoCanceller c;
+            c.prepare(sampleRateHz, 4096, 1);
+            c.setSettings(s);
+            std::vector<float> cancelled = excerpt;
+            for (std::size_t off = 0; off < len; off += 4096)
+            {
+                float* ch[1] = {cancelled.data() + off};
+                c.process(ch, 1, static_cast<int>(std::min<std::size_t>(4096, len - off)));
+            }
+            logSpec = spectralStats(cancelled.data(), len, F, kDropQuiet).meanLog;
+        }
+        qf.lifter(logSpec, lifterCut, false);
+        // After a cancellation the noise carries the inverse's own ripple; only the band clear
+        // of the noise shows the recording's.
+        if (!model.empty())
+            for (std::size_t k = 0; k < logSpec.size(); ++k)
+                logSpec[k] *= band[k];
+        const std::vector<double> cep = qf.cepstrum(logSpec);
+        std::vector<Refl> excluded = model;
+        excluded.insert(excluded.end(), rejected.begin(), rejected.end());
+        const int hw = model.empty() ? 3 : bandHalfWidth;
+        const Candidate cand = findPeak(cep, qmin, qmax, excluded, hw);
+        const double conf = confidenceFromZ(cand.z, cand.lagsSearched);
+        if (cand.lag == 0 || conf < kMinCepstralConfidence)
+        {
+            out.strongestRejectedConfidence = std::max(out.strongestRejectedConfidence, conf);
+            break;
+        }
+        // Start: the cepstral peak, gain corrected for frame truncation (windowOverlap).
+        const double rho = std::max(0.05, windowOverlap(window, cand.delaySamples));
+        const std::vector<Refl> before = model;
+        model.push_back(initialiseNew(
+            fit, model, {cand.delaySamples, std::clamp(cand.value / rho, -0.95, 0.95)}, minD,
+            maxD));
+        if (std::abs(model.back().gain) < 0.5 * opt.minGain)
+        {
+            // Clearly too weak already at the start: set aside without the full refinement.
+            rejected.push_back(model.back());
+            model = before;
+            if (++rejections >= kMaxRejections)
+                break;
+            --r;
+            continue;
+        }
+        refineAll(fit, model, minD, maxD, 8, model.size() - 1);
+        const double consistency = refineRobust(fit, model, minD, maxD, 3);
+        EchoCancelSettings check;
+        for (const auto& m : model)
+            check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
+                m.delaySamples * 1e3 / sampleRateHz, m.gain};
+        check.interpolationOrder = order;
+        if (std::abs(model.back().gain) < opt.minGain || consistency < opt.confidenceThreshold ||
+            !checkEchoStability(check, sampleRateHz).stable)
+        {
+            // Not an echo after all (or not a usable one): keep it out of the next search
+            // and try the next candidate, a few times at most.
+            out.strongestRejectedConfidence =
+                std::max(out.strongestRejectedConfidence, consistency);
+            rejected.push_back(model.back());
+            model = before;
+            if (++rejections >= kMaxRejections)
+                break;
+            --r;
+            continue;
+        }
+        confidences.push_back(consistency);
+    }
+    for (std::size_t k = 0; k < model.size(); ++k)
+    {
+        EchoReflectionEstimate e;
+        e.delaySamples = model[k].delaySamples;
+        e.delayMs = model[k].delaySamples * 1e3 / sampleRateHz;
+        e.gain = model[k].gain;
+        e.confidence = confidences[k];
+        out.reflections.push_back(e);
+    }
+    std::stable_sort(out.reflections.begin(), out.reflections.end(),
+                     [](const auto& a, const auto& b)
+                     { return std::abs(a.gain) > std::abs(b.gain); });
+    return out;
+}
+
+EchoCancelSettings echoSettingsFromEstimate(const EchoEstimate& estimate, EchoMethod method,
+                                            int terms)
+{
+    EchoCancelSettings s;
+    s.method = method;
+    s.terms = terms;
+    for (const auto& r : estimate.reflections)
+    {
+        if (s.numReflections >= kMaxEchoReflections)
+            break;
+        s.reflections[static_cast<std::size_t>(s.numReflections++)] = {r.delayMs, r.gain};
+    }
+    return s;
+}
+
+} // namespace kerf::dsp

@@ -1,0 +1,86 @@
+#include "AudioInput.h"
+
+namespace kerf::cli
+{
+
+/// Wraps a file stream and remembers whether a read came up short.
+class AudioInput::ShortReadDetector : public juce::InputStream
+{
+public:
+    explicit ShortReadDetector(std::unique_ptr<juce::InputStream> s) : inner(std::move(s)) {}
+    juce::int64 getTotalLength() override { return inner->getTotalLength(); }
+    bool isExhausted() override { return inner->isExhausted(); }
+    int read(void* dest, int n) override
+    {
+        const int got = inner->read(dest, n);
+        if (armed && got < n)
+            shortRead = true;
+        return got;
+    }
+    juce::int64 getPosition() override { return inner->getPosition(); }
+    bool setPosition(juce::int64 p) override { return inner->setPosition(p); }
+
+    bool armed = false;
+    bool shortRead = false;
+
+private:
+    std::unique_ptr<juce::InputStream> inner;
+};
+
+std::unique_ptr<AudioInput> AudioInput::open(const juce::File& file, juce::String& error)
+{
+    if (file.isDirectory())
+    {
+        error = "input " + file.getFullPathName() + " is a directory, not an audio file";
+        return nullptr;
+    }
+    if (!file.existsAsFile())
+    {
+        error = "input " + file.getFullPathName() + " does not exist";
+        return nullptr;
+    }
+    auto stream = std::make_unique<juce::FileInputStream>(file);
+    if (!stream->openedOk())
+    {
+        error = "cannot open input " + file.getFullPathName() + ": " +
+                stream->getStatus().getErrorMessage();
+        return nullptr;
+    }
+    juce::AudioFormatManager formats;
+    formats.registerBasicFormats();
+    auto input = std::unique_ptr<AudioInput>(new AudioInput());
+    input->detector_ = new ShortReadDetector(std::move(stream));
+    input->reader_.reset(
+        formats.createReaderFor(std::unique_ptr<juce::InputStream>(input->detector_)));
+    if (input->reader_ == nullptr)
+    {
+        error = "input " + file.getFullPathName() +
+                " is not a readable WAV, AIFF or FLAC file (unsupported or damaged)";
+        return nullptr;
+    }
+    // Uncompressed formats read exactly what the header promises; a short read means the
+    // file was cut. (Compressed decoders legitimately read past the end in chunks.)
+    const juce::String formatName = input->reader_->getFormatName();
+    input->detector_->armed =
+        formatName.containsIgnoreCase("WAV") || formatName.containsIgnoreCase("AIFF");
+    const auto& r = *input->reader_;
+    if (r.sampleRate <= 0 || r.numChannels == 0 || r.lengthInSamples < 0)
+    {
+        error = "input " + file.getFullPathName() + " has no usable audio (rate " +
+                juce::String(r.sampleRate) + ", channels " + juce::String(r.numChannels) + ")";
+        return nullptr;
+    }
+    return input;
+}
+
+bool AudioInput::truncated() const noexcept
+{
+    return detector_->shortRead;
+}
+
+bool AudioInput::read(juce::AudioBuffer<float>& buffer, int n, juce::int64 start)
+{
+    return reader_->read(&buffer, 0, n, start, true, true) && !truncated();
+}
+
+} // namespace kerf::cli

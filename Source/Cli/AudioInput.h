@@ -1,0 +1,31 @@
+#pragma once
+// Opening audio files for the command line: WAV, AIFF and FLAC, with truncation detected.
+#include <juce_audio_formats/juce_audio_formats.h>
+
+#include <memory>
+
+namespace kerf::cli
+{
+
+/// An opened input file. `truncated()` turns true when a read came up short: a WAV or AIFF
+/// whose header promises more audio than the file holds.
+class AudioInput
+{
+public:
+    /// Opens `file`; on failure returns nullptr and sets `error` to a message for the user.
+    static std::unique_ptr<AudioInput> open(const juce::File& file, juce::String& error);
+
+    juce::AudioFormatReader& reader() noexcept { return *reader_; }
+    bool truncated() const noexcept;
+
+    /// Reads n samples from `start` into buffer (all channels); false when the file is
+    /// damaged or truncated there.
+    bool read(juce::AudioBuffer<float>& buffer, int n, juce::int64 start);
+
+private:
+    class ShortReadDetector;
+    std::unique_ptr<juce::AudioFormatReader> reader_;
+    ShortReadDetector* detector_ = nullptr; // owned by reader_
+};
+
+} // namespace kerf::cli
