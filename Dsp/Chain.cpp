@@ -40,6 +40,8 @@ std::string_view stageTypeName(StageType type) noexcept
         return "tilt";
     case StageType::echoCancel:
         return "echo_cancel";
+    case StageType::comb:
+        return "comb";
     }
     return "unknown";
 }
@@ -115,7 +117,8 @@ StageSections designStage(const StageSpec& s, double fs) noexcept
         out.push(designTilt(s.freqHz, s.gainDb, fs, s.design));
         break;
     case StageType::echoCancel:
-        break; // not a section: see EchoCanceller
+    case StageType::comb:
+        break; // not sections: see EchoCanceller and CombStage
     }
     return out;
 }
@@ -128,6 +131,8 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
     scratch.assign(static_cast<std::size_t>(blockSize) * kMaxChannels, 0.0);
     for (auto& e : echoPool)
         e.prepare(sampleRateHz, blockSize, channelCount);
+    for (auto& c : combPool)
+        c.prepare(sampleRateHz, blockSize, channelCount);
     // Designs depend on the rate: force a redesign on the next setChain().
     for (auto& st : stages)
         st = Stage{};
@@ -144,6 +149,8 @@ void ChainProcessor::reset() noexcept
             s.reset();
     for (auto& e : echoPool)
         e.reset();
+    for (auto& c : combPool)
+        c.reset();
 }
 
 int ChainProcessor::activeSections() const noexcept
@@ -158,13 +165,34 @@ int ChainProcessor::activeSections() const noexcept
 void ChainProcessor::setChain(const ChainSpec& chain) noexcept
 {
     const int n = std::min(chain.numStages, kMaxStages);
-    int echoes = 0;
+    int echoes = 0, combs = 0;
     anyActive = false;
     for (int i = 0; i < n; ++i)
     {
         auto& st = stages[static_cast<std::size_t>(i)];
         const StageSpec& spec = chain.stages[static_cast<std::size_t>(i)];
         const bool wasActive = st.active && i < numStages;
+        if (spec.type == StageType::comb)
+        {
+            const bool live = spec.enabled && combs < kMaxCombStages && !scratch.empty();
+            const int slot = live ? combs++ : -1;
+            if (live)
+            {
+                auto& comb = combPool[static_cast<std::size_t>(slot)];
+                if (!(wasActive && !st.sections && st.comb == slot))
+                    comb.reset();
+                if (!(wasActive && spec == st.spec && st.comb == slot))
+                    comb.setSettings(spec.comb);
+            }
+            st.spec = spec;
+            st.sections = false;
+            st.count = 0;
+            st.echo = -1;
+            st.comb = slot;
+            st.active = live;
+            anyActive = anyActive || live;
+            continue;
+        }
         if (!isSectionType(spec.type))
         {
             // An echo canceller from the pool, in order of appearance; a non-causal one
@@ -183,6 +211,7 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
             st.spec = spec;
             st.sections = false;
             st.count = 0;
+            st.comb = -1;
             st.echo = slot;
             st.active = live;
             anyActive = anyActive || live;
@@ -396,8 +425,11 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
         }
         if (!st.sections)
         {
-            // The echo canceller works on every channel.
-            echoPool[static_cast<std::size_t>(st.echo)].process(buf, nch, len);
+            // Echo cancellers and combs work on every channel.
+            if (st.echo >= 0)
+                echoPool[static_cast<std::size_t>(st.echo)].process(buf, nch, len);
+            else
+                combPool[static_cast<std::size_t>(st.comb)].process(buf, nch, len);
             ++i;
             continue;
         }

@@ -3,6 +3,7 @@
 // hold) and its realtime processor (prepare / reset / process).
 #include "Design/PassFilters.h"
 #include "Design/Sections.h"
+#include "Stages/CombStage.h"
 #include "Stages/EchoCanceller.h"
 #include "Stages/SvfSection.h"
 
@@ -27,8 +28,9 @@ enum class StageType
     allPass,
     tilt,
     echoCancel,
+    comb,
 };
-inline constexpr int kNumStageTypes = 10;
+inline constexpr int kNumStageTypes = 11;
 /// The parametric-section types come first: StageType values below this are sections.
 inline constexpr int kNumSectionTypes = 9;
 
@@ -41,6 +43,12 @@ constexpr bool isSectionType(StageType t) noexcept
 inline bool operator==(const EchoReflection& a, const EchoReflection& b) noexcept
 {
     return a.delayMs == b.delayMs && a.gain == b.gain;
+}
+inline bool operator==(const CombSettings& a, const CombSettings& b) noexcept
+{
+    return a.mode == b.mode && a.delayMs == b.delayMs && a.pitchHz == b.pitchHz &&
+           a.gain == b.gain && a.dampingHz == b.dampingHz && a.mix == b.mix &&
+           a.interpolation == b.interpolation && a.interpolationOrder == b.interpolationOrder;
 }
 inline bool operator==(const EchoCancelSettings& a, const EchoCancelSettings& b) noexcept
 {
@@ -88,6 +96,9 @@ struct StageSpec
     /// echo_cancel, offline only: invert by running backwards in time (see README).
     /// The realtime processor leaves such a stage out; `kerf render` applies it.
     bool nonCausal = false;
+    /// comb: feedforward or feedback comb, delay or pitch, gain, damping, mix (on every
+    /// channel).
+    CombSettings comb{};
 
     bool operator==(const StageSpec&) const = default;
 };
@@ -123,6 +134,8 @@ public:
     static constexpr int kMaxSections = kMaxStages * kMaxSectionsPerStage;
     /// Echo-cancellation stages one chain may hold (each owns delay lines from prepare()).
     static constexpr int kMaxEchoStages = 2;
+    /// Comb stages one chain may hold (likewise).
+    static constexpr int kMaxCombStages = 4;
 
     /// Sets the sample rate, largest block and channel count; clears the state.
     void prepare(double sampleRateHz, int maxBlockSize, int numChannels);
@@ -150,9 +163,10 @@ private:
     {
         StageSpec spec;
         bool active = false;
-        bool sections = true; // parametric sections; false: echo canceller `echo`
+        bool sections = true; // parametric sections; false: a pooled stage (echo or comb)
         int count = 0;        // sections, stored at [index * kMaxSectionsPerStage, + count)
-        int echo = -1;        // index into echoPool
+        int echo = -1;        // index into echoPool (echo_cancel)
+        int comb = -1;        // index into combPool (comb)
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
     /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
@@ -183,6 +197,7 @@ private:
     std::array<std::array<SvfState, kMaxSections>, kMaxChannels - 2> extraState{}; // 2..7
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
     std::array<EchoCanceller, kMaxEchoStages> echoPool;
+    std::array<CombStage, kMaxCombStages> combPool;
     bool anyActive = false;
 };
 

@@ -2,6 +2,7 @@
 
 #include "Limits.h"
 
+#include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <optional>
@@ -132,6 +133,8 @@ juce::StringArray fieldsOf(dsp::StageType type)
         return {"freq_hz", "gain_db"};
     case T::echoCancel:
         return {"method", "terms", "reflections", "non_causal"};
+    case T::comb:
+        return {"mode", "delay_ms", "pitch_hz", "gain", "damping_hz", "mix", "interpolation"};
     }
     return {};
 }
@@ -191,6 +194,58 @@ juce::String readEchoStage(const juce::DynamicObject& obj, const juce::String& w
     return {};
 }
 
+/// The comb fields: mode, delay_ms or pitch_hz, gain, damping_hz, mix, interpolation.
+juce::String readCombStage(const juce::DynamicObject& obj, const juce::String& where,
+                           dsp::StageSpec& s)
+{
+    auto& c = s.comb;
+    int mode = 0, interp = 0;
+    auto err = readChoice(obj, "mode", {"feedforward", "feedback"}, where, mode);
+    if (err.isEmpty())
+        err = readChoice(obj, "interpolation", {"lagrange", "thiran"}, where, interp);
+    if (err.isNotEmpty())
+        return err;
+    c.mode = mode == 0 ? dsp::CombMode::feedforward : dsp::CombMode::feedback;
+    c.interpolation =
+        interp == 0 ? dsp::DelayInterpolation::lagrange : dsp::DelayInterpolation::thiran;
+    const bool hasDelay = obj.hasProperty("delay_ms"), hasPitch = obj.hasProperty("pitch_hz");
+    if (hasDelay == hasPitch)
+        return where + ", field 'delay_ms': give either delay_ms (" +
+               formatNumber(dsp::kCombMinDelayMs) + " to " + formatNumber(dsp::kCombMaxDelayMs) +
+               " ms) or pitch_hz, exactly one";
+    if (hasDelay)
+        err = readRanged(obj, "delay_ms", dsp::kCombMinDelayMs, dsp::kCombMaxDelayMs, std::nullopt,
+                         where, c.delayMs);
+    else
+    {
+        // One period of the pitch must fit the delay range.
+        err = readRanged(obj, "pitch_hz", 1000.0 / dsp::kCombMaxDelayMs,
+                         1000.0 / dsp::kCombMinDelayMs, std::nullopt, where, c.pitchHz);
+        c.delayMs = 1000.0 / std::max(c.pitchHz, 1.0);
+    }
+    // The feedback loop is stable only below |g| = 1; Kerf holds it at kMaxFeedbackGain.
+    const double gainLimit =
+        c.mode == dsp::CombMode::feedback ? dsp::kMaxFeedbackGain : dsp::kMaxFeedforwardGain;
+    if (err.isEmpty())
+        err = readRanged(obj, "gain", -gainLimit, gainLimit, 0.5, where, c.gain);
+    if (err.isNotEmpty() && c.mode == dsp::CombMode::feedback && err.contains("'gain'"))
+        err << " (a feedback comb is held below 1 in magnitude to stay stable)";
+    if (err.isEmpty())
+        err = readRanged(obj, "damping_hz", 0.0, dsp::limits::kFreqMaxHz, 0.0, where, c.dampingHz);
+    if (err.isEmpty())
+        err = readRanged(obj, "mix", 0.0, 1.0, 1.0, where, c.mix);
+    if (err.isNotEmpty())
+        return err;
+    if (obj.hasProperty("enabled"))
+    {
+        const juce::var e = obj.getProperty("enabled");
+        if (!e.isBool())
+            return where + ", field 'enabled': expected true or false";
+        s.enabled = static_cast<bool>(e);
+    }
+    return {};
+}
+
 juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
 {
     using namespace dsp::limits;
@@ -214,9 +269,10 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     dsp::StageSpec s;
     s.type = static_cast<T>(typeIndex);
     const juce::StringArray fields = fieldsOf(s.type);
-    if (s.type == T::echoCancel)
+    if (s.type == T::echoCancel || s.type == T::comb)
     {
-        auto echoErr = readEchoStage(*obj, where, s);
+        auto echoErr =
+            s.type == T::comb ? readCombStage(*obj, where, s) : readEchoStage(*obj, where, s);
         if (echoErr.isNotEmpty())
             return echoErr;
         juce::StringArray allowed{"type", "enabled"};
@@ -363,7 +419,7 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
                   juce::String(dsp::ChainSpec::kMaxStages) + " are allowed";
         return r;
     }
-    int echoStages = 0;
+    int echoStages = 0, combStages = 0;
     for (int i = 0; i < stages.size(); ++i)
     {
         dsp::StageSpec s;
@@ -371,6 +427,13 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
         if (err.isNotEmpty())
         {
             r.error = err;
+            return r;
+        }
+        if (s.type == dsp::StageType::comb && ++combStages > dsp::ChainProcessor::kMaxCombStages)
+        {
+            r.error = "stage " + juce::String(i) + ", field 'type': at most " +
+                      juce::String(dsp::ChainProcessor::kMaxCombStages) +
+                      " comb stages in one chain";
             return r;
         }
         if (s.type == dsp::StageType::echoCancel &&
@@ -429,6 +492,24 @@ juce::String chainToJson(const dsp::ChainSpec& chain, const juce::String& name)
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
         const auto fields = fieldsOf(s.type);
         out << (i == 0 ? "\n" : ",\n");
+        if (s.type == T::comb)
+        {
+            const auto& c = s.comb;
+            out << "    {\"type\": \"comb\", \"mode\": \""
+                << (c.mode == dsp::CombMode::feedback ? "feedback" : "feedforward") << "\"";
+            if (c.pitchHz > 0.0)
+                out << ", \"pitch_hz\": " << formatNumber(c.pitchHz);
+            else
+                out << ", \"delay_ms\": " << formatNumber(c.delayMs);
+            out << ", \"gain\": " << formatNumber(c.gain);
+            if (c.dampingHz > 0.0)
+                out << ", \"damping_hz\": " << formatNumber(c.dampingHz);
+            out << ", \"mix\": " << formatNumber(c.mix);
+            if (c.interpolation == dsp::DelayInterpolation::thiran)
+                out << ", \"interpolation\": \"thiran\"";
+            out << ", \"enabled\": " << (s.enabled ? "true" : "false") << "}";
+            continue;
+        }
         if (s.type == T::echoCancel)
         {
             out << "    {\"type\": \"echo_cancel\", \"method\": \""

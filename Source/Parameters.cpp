@@ -123,6 +123,10 @@ juce::String echoGain(int reflection)
 {
     return "echo_r" + juce::String(reflection + 1) + "_gain";
 }
+juce::String comb(int slot, const char* field)
+{
+    return "comb" + juce::String(slot + 1) + "_" + field;
+}
 } // namespace ids
 
 double defaultSlotFreqHz(int slot)
@@ -233,6 +237,43 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
         layout.add(std::move(echo));
     }
 
+    for (int c = 0; c < kNumCombSlots; ++c)
+    {
+        const juce::String name = "Comb " + juce::String(c + 1);
+        auto group = std::make_unique<juce::AudioProcessorParameterGroup>(
+            "comb" + juce::String(c + 1), name, " | ");
+        auto id = [c](const char* f) {
+            return juce::ParameterID{ids::comb(c, f), kParameterVersion};
+        };
+        group->addChild(std::make_unique<juce::AudioParameterBool>(id("on"), name + " on", false));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            id("mode"), name + " mode", juce::StringArray{"Feedforward", "Feedback"}, 0));
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            id("tuning"), name + " tuning", juce::StringArray{"Delay", "Pitch"}, 0));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            id("delay"), name + " delay",
+            logRange(static_cast<float>(dsp::kCombMinDelayMs),
+                     static_cast<float>(dsp::kCombMaxDelayMs), 5),
+            5.0f,
+            AudioParameterFloatAttributes().withLabel("ms").withStringFromValueFunction(
+                [](float v, int) { return juce::String(v, 3) + " ms"; })));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            id("pitch"), name + " pitch", logRange(20.0f, 5000.0f, 5), 220.0f, freqAttr));
+        // The feedback limit (stability) is the end of the range, visible to the user.
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            id("gain"), name + " gain (limit +-0.995)",
+            juce::NormalisableRange<float>(-static_cast<float>(dsp::kMaxFeedbackGain),
+                                           static_cast<float>(dsp::kMaxFeedbackGain), 0.0001f),
+            0.5f));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            id("damp"), name + " damping (top = off)", logRange(200.0f, kCombDampingOffHz, 5),
+            kCombDampingOffHz, freqAttr));
+        group->addChild(std::make_unique<juce::AudioParameterFloat>(
+            id("mix"), name + " dry/wet", juce::NormalisableRange<float>(0.0f, 1.0f, 0.0001f),
+            1.0f));
+        layout.add(std::move(group));
+    }
+
     layout.add(std::make_unique<juce::AudioParameterFloat>(
         juce::ParameterID{ids::outputGain, kParameterVersion}, "Output gain",
         dbRange(-24.0f, 12.0f), 0.0f, gainAttr));
@@ -265,6 +306,18 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
     outputGainDb = state.getRawParameterValue(ids::outputGain);
     protectOn = state.getRawParameterValue(ids::protectOn);
     protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
+    for (int c = 0; c < kNumCombSlots; ++c)
+    {
+        auto& k = combs[static_cast<std::size_t>(c)];
+        k.on = state.getRawParameterValue(ids::comb(c, "on"));
+        k.mode = state.getRawParameterValue(ids::comb(c, "mode"));
+        k.tuning = state.getRawParameterValue(ids::comb(c, "tuning"));
+        k.delay = state.getRawParameterValue(ids::comb(c, "delay"));
+        k.pitch = state.getRawParameterValue(ids::comb(c, "pitch"));
+        k.gain = state.getRawParameterValue(ids::comb(c, "gain"));
+        k.damp = state.getRawParameterValue(ids::comb(c, "damp"));
+        k.mix = state.getRawParameterValue(ids::comb(c, "mix"));
+    }
     echoOn = state.getRawParameterValue(ids::echoOn);
     echoMethod = state.getRawParameterValue(ids::echoMethod);
     echoTerms = state.getRawParameterValue(ids::echoTerms);
@@ -287,7 +340,24 @@ int choiceIndex(const std::atomic<float>* p, int count) noexcept
 void ParameterRefs::readChain(dsp::ChainSpec& out) const noexcept
 {
     using T = dsp::StageType;
-    out.numStages = kNumSectionSlots + 1;
+    out.numStages = kNumSectionSlots + 1 + kNumCombSlots;
+    for (int c = 0; c < kNumCombSlots; ++c)
+    {
+        const auto& k = combs[static_cast<std::size_t>(c)];
+        auto& st = out.stages[static_cast<std::size_t>(kNumSectionSlots + 1 + c)];
+        st = dsp::StageSpec{};
+        st.type = T::comb;
+        st.enabled = k.on->load(std::memory_order_relaxed) > 0.5f;
+        st.comb.mode =
+            choiceIndex(k.mode, 2) == 0 ? dsp::CombMode::feedforward : dsp::CombMode::feedback;
+        st.comb.delayMs = k.delay->load(std::memory_order_relaxed);
+        st.comb.pitchHz =
+            choiceIndex(k.tuning, 2) == 1 ? k.pitch->load(std::memory_order_relaxed) : 0.0;
+        st.comb.gain = k.gain->load(std::memory_order_relaxed);
+        const float damp = k.damp->load(std::memory_order_relaxed);
+        st.comb.dampingHz = damp >= kCombDampingOffHz ? 0.0 : damp;
+        st.comb.mix = k.mix->load(std::memory_order_relaxed);
+    }
     {
         // Stage 0: the echo canceller, with the reflections whose gain is not zero.
         auto& echo = out.stages[0];
@@ -344,10 +414,15 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
     using T = dsp::StageType;
     // Split the chain: one causal echo stage, then the sections in order.
     const dsp::StageSpec* echo = nullptr;
-    std::vector<dsp::StageSpec> sections;
+    std::vector<dsp::StageSpec> sections, combs;
     for (int i = 0; i < chain.numStages; ++i)
     {
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
+        if (s.type == T::comb)
+        {
+            combs.push_back(s);
+            continue;
+        }
         if (s.type != T::echoCancel)
         {
             sections.push_back(s);
@@ -380,11 +455,32 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
                 " section stages; the plugin has " + juce::String(kNumSectionSlots) + " slots";
         return false;
     }
+    if (static_cast<int>(combs.size()) > kNumCombSlots)
+    {
+        error = "the chain has " + juce::String(static_cast<int>(combs.size())) +
+                " comb stages; the plugin has " + juce::String(kNumCombSlots) + " comb slots";
+        return false;
+    }
     auto set = [&state](const juce::String& id, float value)
     {
         auto* p = state.getParameter(id);
         p->setValueNotifyingHost(p->convertTo0to1(value));
     };
+    for (int c = 0; c < kNumCombSlots; ++c)
+    {
+        const bool used = c < static_cast<int>(combs.size());
+        const dsp::StageSpec st = used ? combs[static_cast<std::size_t>(c)] : dsp::StageSpec{};
+        const dsp::CombSettings k = used ? st.comb : dsp::CombSettings{};
+        set(ids::comb(c, "on"), used && st.enabled ? 1.0f : 0.0f);
+        set(ids::comb(c, "mode"), k.mode == dsp::CombMode::feedback ? 1.0f : 0.0f);
+        set(ids::comb(c, "tuning"), k.pitchHz > 0.0 ? 1.0f : 0.0f);
+        set(ids::comb(c, "delay"), static_cast<float>(k.pitchHz > 0.0 ? 5.0 : k.delayMs));
+        set(ids::comb(c, "pitch"), static_cast<float>(k.pitchHz > 0.0 ? k.pitchHz : 220.0));
+        set(ids::comb(c, "gain"), static_cast<float>(k.gain));
+        set(ids::comb(c, "damp"),
+            k.dampingHz > 0.0 ? static_cast<float>(k.dampingHz) : kCombDampingOffHz);
+        set(ids::comb(c, "mix"), static_cast<float>(k.mix));
+    }
     set(ids::echoOn, echo != nullptr && echo->enabled ? 1.0f : 0.0f);
     set(ids::echoMethod,
         echo != nullptr && echo->echo.method == dsp::EchoMethod::series ? 1.0f : 0.0f);

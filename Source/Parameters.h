@@ -25,6 +25,10 @@ inline constexpr float kPluginEchoGainMax = 0.95f;
 inline constexpr int kParameterVersion = 1;
 /// Section slots the plugin offers.
 inline constexpr int kNumSectionSlots = 24;
+/// Comb slots the plugin offers (after the sections in the chain).
+inline constexpr int kNumCombSlots = 2;
+/// Damping frequency at or above which a comb slot's damping is off.
+inline constexpr float kCombDampingOffHz = 20000.0f;
 
 /// Parameter IDs. Host automation and saved sessions refer to these strings: never rename.
 namespace ids
@@ -47,6 +51,9 @@ inline const juce::String echoMethod = "echo_method";
 inline const juce::String echoTerms = "echo_terms";
 juce::String echoDelay(int reflection); ///< "echo_r1_delay" (reflection 0)
 juce::String echoGain(int reflection);  ///< "echo_r1_gain"
+/// Comb slot fields: "comb1_on", "comb1_mode", "comb1_tuning", "comb1_delay", "comb1_pitch",
+/// "comb1_gain", "comb1_damp", "comb1_mix" (slot 0 is comb1).
+juce::String comb(int slot, const char* field);
 } // namespace ids
 
 /// Builds the full parameter layout.
@@ -80,11 +87,18 @@ struct ParameterRefs
     std::atomic<float>* echoTerms = nullptr;
     std::array<std::atomic<float>*, dsp::kMaxEchoReflections> echoDelayMs{};
     std::array<std::atomic<float>*, dsp::kMaxEchoReflections> echoGain{};
+    struct Comb
+    {
+        std::atomic<float>*on = nullptr, *mode = nullptr, *tuning = nullptr, *delay = nullptr,
+        *pitch = nullptr, *gain = nullptr, *damp = nullptr, *mix = nullptr;
+    };
+    std::array<Comb, kNumCombSlots> combs{};
 
     explicit ParameterRefs(juce::AudioProcessorValueTreeState& state);
 
     /// Snapshot of the chain the parameters describe: stage 0 is the echo canceller (off
-    /// unless echo_on and a reflection has a gain), stages 1..24 the section slots.
+    /// unless echo_on and a reflection has a gain), stages 1..24 the section slots, 25..26 the
+    /// comb slots.
     /// No allocation.
     void readChain(dsp::ChainSpec& out) const noexcept;
 };

@@ -65,12 +65,17 @@ struct DesignedStage
 {
     ChannelMode mode;
     StageSections sections;
-    const StageSpec* echo = nullptr; // echo_cancel stage, evaluated by EchoCanceller.h
+    const StageSpec* echo = nullptr; // echo_cancel or comb stage, evaluated by its own header
 };
 
-/// H and dH/domega of an echo-cancellation stage (causal or, offline, non-causal).
+/// H and dH/domega of an echo-cancellation stage (causal or, offline, non-causal) or a comb.
 Dual echoDual(const StageSpec& spec, double fs, double omega)
 {
+    if (spec.type == StageType::comb)
+    {
+        const ResponseValue c = combResponseValue(spec.comb, fs, omega);
+        return {c.h, c.dh};
+    }
     const ResponseValue r = spec.nonCausal ? echoNonCausalResponseValue(spec.echo, fs, omega)
                                            : echoCancelResponseValue(spec.echo, fs, omega);
     return {r.h, r.dh};
@@ -84,7 +89,7 @@ std::vector<DesignedStage> designAll(const ChainSpec& chain, double fs)
         const auto& spec = chain.stages[static_cast<std::size_t>(i)];
         if (!spec.enabled)
             continue;
-        if (spec.type == StageType::echoCancel)
+        if (spec.type == StageType::echoCancel || spec.type == StageType::comb)
         {
             out.push_back({ChannelMode::both, {}, &spec});
             continue;
@@ -233,7 +238,7 @@ std::complex<double> evaluateChain(const ChainSpec& chain, double sampleRateHz, 
         for (int i = 0; i < chain.numStages; ++i)
         {
             const auto& spec = chain.stages[static_cast<std::size_t>(i)];
-            if (spec.enabled && spec.type == StageType::echoCancel)
+            if (spec.enabled && !isSectionType(spec.type))
             {
                 h *= echoDual(spec, sampleRateHz, omega).v;
                 continue;
@@ -435,6 +440,12 @@ std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c)
 PoleZero stagePolesZeros(const StageSpec& spec, double sampleRateHz)
 {
     PoleZero pz;
+    if (spec.type == StageType::comb)
+    {
+        pz.listed = false;
+        pz.note = "comb: a long delay line; roots not listed (see its response)";
+        return pz;
+    }
     if (spec.type == StageType::echoCancel)
     {
         if (!spec.enabled)

@@ -209,3 +209,38 @@ TEST_CASE("chain file: echo_cancel stages", "[chain][echo]")
                  {"type": "echo_cancel", "reflections": [{"delay_ms": 5, "gain": 0.5}]})")
               .contains("at most"));
 }
+
+TEST_CASE("chain file: comb stages", "[chain][comb]")
+{
+    // Source: README.md chain-file reference (comb fields; feedback gain held below 1).
+    using namespace kerf::dsp;
+    const auto r = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.9, "damping_hz": 4000, "mix": 0.5},
+      {"type": "comb", "delay_ms": 2.5, "gain": -1, "interpolation": "thiran"}]})");
+    INFO(r.error);
+    REQUIRE(r.ok);
+    CHECK(r.chain.stages[0].comb.mode == CombMode::feedback);
+    CHECK(r.chain.stages[0].comb.pitchHz == 220.0);
+    CHECK(r.chain.stages[0].comb.dampingHz == 4000.0);
+    CHECK(r.chain.stages[1].comb.mode == CombMode::feedforward);
+    CHECK(r.chain.stages[1].comb.interpolation == DelayInterpolation::thiran);
+    const auto back = parseChainJson(chainToJson(r.chain));
+    REQUIRE(back.ok);
+    CHECK(back.chain.stages[0] == r.chain.stages[0]);
+    CHECK(back.chain.stages[1] == r.chain.stages[1]);
+
+    auto err = [](const char* stage)
+    {
+        const auto res = parseChainJson(
+            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
+        REQUIRE_FALSE(res.ok);
+        return res.error;
+    };
+    const auto unstable =
+        err(R"({"type": "comb", "mode": "feedback", "delay_ms": 5, "gain": 0.999})");
+    CHECK(unstable.contains("'gain'"));
+    CHECK(unstable.contains("stable"));
+    CHECK(err(R"({"type": "comb", "delay_ms": 5, "pitch_hz": 100})").contains("exactly one"));
+    CHECK(err(R"({"type": "comb", "delay_ms": 500})").contains("'delay_ms'"));
+    CHECK(err(R"({"type": "comb", "delay_ms": 5, "mix": 2})").contains("'mix'"));
+}

@@ -41,8 +41,10 @@ TEST_CASE("plugin: state round trip restores every parameter exactly", "[plugin]
     const auto pa = a.getParameters();
     const auto pb = b.getParameters();
     REQUIRE(pa.size() == pb.size());
-    // 24 slots of 10, the echo stage (on, method, terms, 4 x delay and gain), 3 output.
-    REQUIRE(pa.size() == kNumSectionSlots * 10 + 3 + 2 * dsp::kMaxEchoReflections + 3);
+    // 24 slots of 10, the echo stage (on, method, terms, 4 x delay and gain), 3 output,
+    // 2 combs of 8.
+    REQUIRE(pa.size() ==
+            kNumSectionSlots * 10 + 3 + 2 * dsp::kMaxEchoReflections + 3 + kNumCombSlots * 8);
     for (int i = 0; i < pa.size(); ++i)
     {
         auto* ra = dynamic_cast<juce::RangedAudioParameter*>(pa[i]);
@@ -279,4 +281,61 @@ TEST_CASE("plugin: listening for room echo proposes values that cancel it", "[pl
     const double erle = 10.0 * std::log10(echoPower / residualPower);
     INFO("ERLE " << erle << " dB");
     CHECK(erle >= 20.0);
+}
+
+TEST_CASE("plugin: comb and echo stages import, export and process as the Dsp chain",
+          "[plugin][comb][echo]")
+{
+    // Project invariant: plugin path == Dsp path, and import/export keeps every field.
+    JuceGuard guard;
+    const auto parsed = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 12.5, "gain": 0.4}]},
+      {"type": "peaking", "freq_hz": 1000, "gain_db": -3, "q": 2},
+      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.5, "damping_hz": 4000, "mix": 0.5},
+      {"type": "comb", "delay_ms": 2.5, "gain": -0.6}]})");
+    REQUIRE(parsed.ok);
+    KerfProcessor p;
+    CHECK(p.importChain(parsed.chain).isEmpty());
+    const auto back = p.exportChain();
+    REQUIRE(back.numStages == 4);
+    CHECK(back.stages[0].type == kerf::dsp::StageType::echoCancel);
+    CHECK(back.stages[0].echo.reflections[0].delayMs == Approx(12.5).epsilon(1e-6));
+    CHECK(back.stages[0].echo.reflections[0].gain == Approx(0.4).epsilon(1e-4));
+    CHECK(back.stages[2].type == kerf::dsp::StageType::comb);
+    CHECK(back.stages[2].comb.pitchHz == Approx(220.0).epsilon(1e-6));
+    CHECK(back.stages[2].comb.dampingHz == Approx(4000.0).epsilon(1e-6));
+    CHECK(back.stages[3].comb.delayMs == Approx(2.5).epsilon(1e-6));
+    CHECK(back.stages[3].comb.gain == Approx(-0.6).epsilon(1e-4));
+
+    p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
+    p.setPlayConfigDetails(2, 2, 48000.0, 512);
+    p.prepareToPlay(48000.0, 512);
+    kerf::dsp::ChainProcessor direct;
+    direct.prepare(48000.0, 512, 2);
+    direct.setChain(back);
+    juce::AudioBuffer<float> a(2, 512), b(2, 512);
+    juce::MidiBuffer midi;
+    for (int blockIndex = 0; blockIndex < 8; ++blockIndex)
+    {
+        a.clear();
+        if (blockIndex == 0)
+        {
+            a.setSample(0, 0, 0.5f);
+            a.setSample(1, 3, 0.25f);
+        }
+        b.makeCopyOf(a);
+        p.processBlock(a, midi);
+        direct.process(b.getArrayOfWritePointers(), 2, 512);
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < 512; ++i)
+                REQUIRE(a.getSample(ch, i) == b.getSample(ch, i));
+    }
+
+    // More stages than the plugin holds, and offline-only stages, are refused with a reason.
+    auto tooMany = parsed.chain;
+    tooMany.push(parsed.chain.stages[3]);
+    CHECK(p.importChain(tooMany).contains("comb"));
+    auto offline = parsed.chain;
+    offline.stages[0].nonCausal = true;
+    CHECK(p.importChain(offline).contains("non_causal"));
 }

@@ -52,7 +52,7 @@ MIN_CHANGE_RMS_RATIO = 0.01
 # (juce_audio_plugin_client/LV2/juce_LV2_Client.cpp), not from anything Kerf declares. Each
 # is (message, subject regex, predicate, object regex); anything else fails the test.
 # Any of the plugin's parameters (Source/Parameters.cpp): secNN_<field>, out_*, protect_*.
-PARAM = LV2_URI + r":(sec\d\d_[a-z]+|echo_[a-z0-9_]+|out_[a-z]+|protect_[a-z]+)"
+PARAM = LV2_URI + r":(sec\d\d_[a-z]+|echo_[a-z0-9_]+|comb\d_[a-z]+|out_[a-z]+|protect_[a-z]+)"
 KNOWN_JUCE_TTL_ERRORS = [
     # The plugin carries doap:maintainer / doap:release but is not typed doap:Project.
     ("Subject not in domain <http://usefulinc.com/ns/doap#Project>", re.escape(LV2_URI),
@@ -72,7 +72,7 @@ KNOWN_JUCE_TTL_ERRORS = [
      r"http://lv2plug.in/ns/lv2core#(enumeration|toggled)"),
     ("Subject not in domain <http://lv2plug.in/ns/lv2core#Port>", PARAM,
      "http://lv2plug.in/ns/ext/port-groups#group",
-     re.escape(LV2_URI) + r":paramgroup_(sec\d\d|echo)"),
+     re.escape(LV2_URI) + r":paramgroup_(sec\d\d|echo|comb\d)"),
     # Program presets store the program index under <URI:Program>, a property JUCE never
     # describes (no rdfs:label, no definition).
     ("Use of undefined property", r"\S+", LV2_URI + ":Program", r"\d+"),
