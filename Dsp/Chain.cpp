@@ -506,7 +506,8 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
     if (scratch.empty() || !anyActive)
         return;
     ScopedNoDenormals noDenormals;
-    const int nch = std::min(numChannels, kMaxChannels);
+    // Never more channels than prepared: the pooled stages hold state for that many.
+    const int nch = std::min(numChannels, channelCount);
     // Samples stay in double from the first section to the last; only the block's input
     // and output are in the caller's sample type.
     for (int start = 0; start < numSamples; start += blockSize)
