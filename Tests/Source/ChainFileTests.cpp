@@ -15,6 +15,14 @@ juce::String errorOf(const char* json)
     REQUIRE_FALSE(r.ok);
     return r.error;
 }
+/// The error for a one-stage (or few-stage) chain whose stages are given as JSON text.
+juce::String stageError(const char* stages)
+{
+    const auto r = parseChainJson(
+        juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stages + "]}");
+    REQUIRE_FALSE(r.ok);
+    return r.error;
+}
 } // namespace
 
 TEST_CASE("chain file: the documented example reads back", "[chain]")
@@ -141,13 +149,7 @@ TEST_CASE("chain file: every section type and its fields", "[chain]")
 TEST_CASE("chain file: per-type field errors", "[chain]")
 {
     // Source: README.md chain-file reference (ranges and per-type fields).
-    auto err = [](const char* stage)
-    {
-        const auto r = parseChainJson(
-            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
-        REQUIRE_FALSE(r.ok);
-        return r.error;
-    };
+    const auto err = stageError;
     CHECK(err(R"({"type": "high_pass", "freq_hz": 80, "order": 3, "alignment": "linkwitz_riley"})")
               .contains("even order"));
     CHECK(err(R"({"type": "low_pass", "freq_hz": 80, "order": 4, "q": 2})").contains("'q'"));
@@ -186,13 +188,7 @@ TEST_CASE("chain file: echo_cancel stages", "[chain][echo]")
     CHECK(back.chain.stages[0] == r.chain.stages[0]);
     CHECK(back.chain.stages[1] == r.chain.stages[1]);
 
-    auto err = [](const char* stage)
-    {
-        const auto res = parseChainJson(
-            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
-        REQUIRE_FALSE(res.ok);
-        return res.error;
-    };
+    const auto err = stageError;
     CHECK(err(R"({"type": "echo_cancel", "reflections": []})").contains("'reflections'"));
     CHECK(err(R"({"type": "echo_cancel", "reflections": [{"delay_ms": 0.1, "gain": 0.5}]})")
               .contains("'delay_ms'"));
@@ -229,13 +225,7 @@ TEST_CASE("chain file: comb stages", "[chain][comb]")
     CHECK(back.chain.stages[0] == r.chain.stages[0]);
     CHECK(back.chain.stages[1] == r.chain.stages[1]);
 
-    auto err = [](const char* stage)
-    {
-        const auto res = parseChainJson(
-            juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [)") + stage + "]}");
-        REQUIRE_FALSE(res.ok);
-        return res.error;
-    };
+    const auto err = stageError;
     const auto unstable =
         err(R"({"type": "comb", "mode": "feedback", "delay_ms": 5, "gain": 0.999})");
     CHECK(unstable.contains("'gain'"));
