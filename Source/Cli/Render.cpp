@@ -100,16 +100,8 @@ int runRender(Args args)
     const juce::File inFile = cwd.getChildFile(pos[0]);
     const juce::File outFile = cwd.getChildFile(pos[1]);
 
-    if (inFile.isDirectory())
-    {
-        printError("input " + inFile.getFullPathName() + " is a directory, not an audio file");
-        return kExitFailure;
-    }
-    if (!inFile.existsAsFile())
-    {
-        printError("input " + inFile.getFullPathName() + " does not exist");
-        return kExitFailure;
-    }
+    // The input itself is checked when it is opened (AudioInput): a directory, a missing or
+    // unreadable file each get their own message.
     if (outFile == inFile || (outFile.exists() && sameFile(inFile, outFile)))
     {
         printError("output " + outFile.getFullPathName() +
