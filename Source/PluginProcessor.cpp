@@ -2,6 +2,7 @@
 
 #include "FactoryPresets.h"
 #include "KerfEditor.h"
+#include "Response/SystemFunction.h"
 
 namespace kerf
 {
@@ -112,6 +113,12 @@ juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain)
     juce::String error;
     applyChainToParameters(newChain, parameters, error);
     return error;
+}
+
+double KerfProcessor::getTailLengthSeconds() const
+{
+    const double rate = getSampleRate() > 0.0 ? getSampleRate() : 48000.0;
+    return dsp::chainTailSeconds(exportChain(), rate);
 }
 
 dsp::ChainSpec KerfProcessor::exportChain() const

@@ -36,7 +36,8 @@ public:
     bool acceptsMidi() const override { return false; }
     bool producesMidi() const override { return false; }
     bool isMidiEffect() const override { return false; }
-    double getTailLengthSeconds() const override { return 0.0; }
+    /// From the current feedback combs, echo stage and sections (chainTailSeconds).
+    double getTailLengthSeconds() const override;
 
     /// Factory presets appear to hosts as programs; program 0 is "Flat".
     int getNumPrograms() override;

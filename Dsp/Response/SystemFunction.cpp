@@ -409,6 +409,63 @@ std::vector<double> impulseResponse(const ChainSpec& chain, double sampleRateHz,
     return l;
 }
 
+double chainTailSeconds(const ChainSpec& chain, double fs)
+{
+    constexpr double kMaxTailSeconds = 60.0;
+    const double ln60 = std::log(1.0e-3); // -60 dB
+    // Samples for a decay of `radius` per `period` samples to reach -60 dB.
+    auto decay = [&](double radius, double period)
+    {
+        if (!(radius > 0.0))
+            return 0.0;
+        if (radius >= 1.0)
+            return kMaxTailSeconds * fs;
+        return period * ln60 / std::log(radius);
+    };
+    double samples = 0.0;
+    for (int i = 0; i < chain.numStages; ++i)
+    {
+        const auto& spec = chain.stages[static_cast<std::size_t>(i)];
+        if (!spec.enabled)
+            continue;
+        if (spec.type == StageType::comb)
+        {
+            const auto c = clampCombSettings(spec.comb, fs);
+            const double period = combLineDelaySamples(c, fs);
+            samples +=
+                c.mode == CombMode::feedback ? decay(std::abs(c.gain), period) + period : period;
+        }
+        else if (spec.type == StageType::echoCancel)
+        {
+            double longest = 0.0, sum = 0.0;
+            for (int k = 0; k < spec.echo.numReflections; ++k)
+            {
+                const auto& r = spec.echo.reflections[static_cast<std::size_t>(k)];
+                longest = std::max(longest, r.delayMs * 1.0e-3 * fs);
+                sum += std::abs(r.gain);
+            }
+            if (spec.echo.method == EchoMethod::series)
+                samples += (spec.echo.terms + 1) * longest;
+            else // |z| of every root of P is below sum^(1/longest) when sum < 1
+                samples += decay(sum, longest) + longest;
+        }
+        else
+        {
+            const StageSections s = designStage(spec, fs);
+            for (int j = 0; j < s.count; ++j)
+            {
+                const auto& c = s.sections[static_cast<std::size_t>(j)];
+                // Slowest pole of 1 + a1 z^-1 + a2 z^-2.
+                const double disc = c.a1 * c.a1 - 4.0 * c.a2;
+                const double radius =
+                    disc < 0.0 ? std::sqrt(c.a2) : 0.5 * (std::abs(c.a1) + std::sqrt(disc));
+                samples += decay(radius, 1.0);
+            }
+        }
+    }
+    return std::min(samples / fs, kMaxTailSeconds);
+}
+
 std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c)
 {
     std::size_t first = 0;

@@ -93,6 +93,12 @@ struct PoleZero
 /// is its longest delay in samples; a dense eigen-solve beyond this is too slow to be useful).
 inline constexpr int kMaxRootDegree = 600;
 
+/// How long, in seconds, the chain's impulse response takes to fall 60 dB below its start
+/// (what a host should keep processing after the input stops): per stage, from the radius
+/// of its slowest pole (sections), ln(1e-3)/ln|g| loops of its delay (feedback combs), or
+/// the model's decay bound (echo cancellers); stages in series add up. Capped at 60 s.
+double chainTailSeconds(const ChainSpec& chain, double sampleRateHz);
+
 /// Roots of c[0] x^n + c[1] x^(n-1) + ... + c[n] (leading zeros dropped), from the
 /// eigenvalues of the companion matrix (Eigen), as numpy.roots computes them.
 std::vector<std::complex<double>> polynomialRoots(const std::vector<double>& c);

@@ -306,6 +306,10 @@ TEST_CASE("plugin: comb and echo stages import, export and process as the Dsp ch
     CHECK(back.stages[2].comb.dampingHz == Approx(4000.0).epsilon(1e-6));
     CHECK(back.stages[3].comb.delayMs == Approx(2.5).epsilon(1e-6));
     CHECK(back.stages[3].comb.gain == Approx(-0.6).epsilon(1e-4));
+    // The host is told how long the feedback comb and the echo inverse ring on.
+    CHECK(p.getTailLengthSeconds() ==
+          Approx(kerf::dsp::chainTailSeconds(back, 48000.0)).epsilon(1e-9));
+    CHECK(p.getTailLengthSeconds() > 0.05);
 
     p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
     p.setPlayConfigDetails(2, 2, 48000.0, 512);
