@@ -59,6 +59,18 @@ juce::String readRanged(const juce::DynamicObject& obj, const char* field, doubl
     return {};
 }
 
+/// Reads the optional boolean "enabled" field into `enabled`.
+juce::String readEnabled(const juce::DynamicObject& obj, const juce::String& where, bool& enabled)
+{
+    if (!obj.hasProperty("enabled"))
+        return {};
+    const juce::var e = obj.getProperty("enabled");
+    if (!e.isBool())
+        return where + ", field 'enabled': expected true or false";
+    enabled = static_cast<bool>(e);
+    return {};
+}
+
 /// Reads a whole-number field in [lo, hi]; missing -> fallback.
 juce::String readInteger(const juce::DynamicObject& obj, const char* field, int lo, int hi,
                          int fallback, const juce::String& where, int& out)
@@ -184,13 +196,8 @@ juce::String readEchoStage(const juce::DynamicObject& obj, const juce::String& w
         if (s.nonCausal && s.echo.method != dsp::EchoMethod::exact)
             return where + ", field 'non_causal': only the exact method runs backwards in time";
     }
-    if (obj.hasProperty("enabled"))
-    {
-        const juce::var e = obj.getProperty("enabled");
-        if (!e.isBool())
-            return where + ", field 'enabled': expected true or false";
-        s.enabled = static_cast<bool>(e);
-    }
+    if (auto err = readEnabled(obj, where, s.enabled); err.isNotEmpty())
+        return err;
     return {};
 }
 
@@ -236,13 +243,8 @@ juce::String readCombStage(const juce::DynamicObject& obj, const juce::String& w
         err = readRanged(obj, "mix", 0.0, 1.0, 1.0, where, c.mix);
     if (err.isNotEmpty())
         return err;
-    if (obj.hasProperty("enabled"))
-    {
-        const juce::var e = obj.getProperty("enabled");
-        if (!e.isBool())
-            return where + ", field 'enabled': expected true or false";
-        s.enabled = static_cast<bool>(e);
-    }
+    if (auto err = readEnabled(obj, where, s.enabled); err.isNotEmpty())
+        return err;
     return {};
 }
 
@@ -321,13 +323,8 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     if (err.isNotEmpty())
         return err;
 
-    if (obj->hasProperty("enabled"))
-    {
-        const juce::var e = obj->getProperty("enabled");
-        if (!e.isBool())
-            return where + ", field 'enabled': expected true or false";
-        s.enabled = static_cast<bool>(e);
-    }
+    if (auto err = readEnabled(*obj, where, s.enabled); err.isNotEmpty())
+        return err;
     int channels = 0, design = 0;
     err = readChoice(*obj, "channels",
                      namesOf({dsp::channelModeName(dsp::ChannelMode::both),

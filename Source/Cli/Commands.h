@@ -2,6 +2,8 @@
 // The `kerf` command line: subcommands share these helpers.
 #include <juce_core/juce_core.h>
 
+#include <string>
+
 namespace kerf::cli
 {
 
@@ -27,6 +29,9 @@ public:
 private:
     juce::StringArray rest;
 };
+
+/// A number as text with `digits` significant digits (17 reads back exactly).
+std::string formatNumber(double value, int digits);
 
 /// Prints to stderr with a "kerf: " prefix.
 void printError(const juce::String& message);

@@ -34,9 +34,7 @@ namespace
 {
 std::string number(double v)
 {
-    char buf[40];
-    std::snprintf(buf, sizeof(buf), "%.10g", v);
-    return buf;
+    return formatNumber(v, 10);
 }
 
 bool parseNumber(const juce::String& text, double& out)

@@ -1,6 +1,7 @@
 // `kerf`: Kerf's command-line program for batch work.
 #include "Commands.h"
 
+#include <cstdio>
 #include <iostream>
 
 namespace kerf::cli
@@ -47,6 +48,13 @@ juce::String Args::unknownOption() const
         if (w.startsWith("--") && w.length() > 2)
             return w;
     return {};
+}
+
+std::string formatNumber(double value, int digits)
+{
+    char buf[48];
+    std::snprintf(buf, sizeof(buf), "%.*g", digits, value);
+    return buf;
 }
 
 void printError(const juce::String& message)

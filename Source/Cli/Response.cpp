@@ -37,9 +37,7 @@ namespace
 {
 std::string number(double v)
 {
-    char buf[40];
-    std::snprintf(buf, sizeof(buf), "%.17g", v);
-    return buf;
+    return formatNumber(v, 17);
 }
 
 std::string complexList(const std::vector<std::complex<double>>& values)
