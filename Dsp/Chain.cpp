@@ -7,6 +7,7 @@
 
 #include <algorithm>
 #include <atomic>
+#include <cmath>
 
 #if defined(__SSE2__)
 #include <immintrin.h>
@@ -133,10 +134,11 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
         e.prepare(sampleRateHz, blockSize, channelCount);
     for (auto& c : combPool)
         c.prepare(sampleRateHz, blockSize, channelCount);
-    // Designs depend on the rate: force a redesign on the next setChain().
+    // Designs depend on the rate: everything is installed afresh by the next setChain().
     for (auto& st : stages)
         st = Stage{};
     numStages = 0;
+    hasPending = false;
     reset();
 }
 
@@ -151,112 +153,348 @@ void ChainProcessor::reset() noexcept
         e.reset();
     for (auto& c : combPool)
         c.reset();
+    // Moves in progress end at their targets at once: there is no sound left to click.
+    ChainSpec target = hasPending ? pending : ChainSpec{};
+    if (!hasPending)
+    {
+        target.numStages = numStages;
+        for (int i = 0; i < numStages; ++i)
+        {
+            const Stage& st = stages[static_cast<std::size_t>(i)];
+            target.stages[static_cast<std::size_t>(i)] = st.queued ? st.queuedSpec : st.spec;
+        }
+    }
+    installNow(target);
+    started = false;
+    clock = 0;
+}
+
+void ChainProcessor::setGlideMs(double ms) noexcept
+{
+    glideMs_ = std::clamp(std::isfinite(ms) ? ms : kDefaultGlideMs, 0.0, kMaxGlideMs);
+}
+
+bool ChainProcessor::isMoving() const noexcept
+{
+    return hasPending || movingStages > 0;
 }
 
 int ChainProcessor::activeSections() const noexcept
 {
     int n = 0;
     for (int i = 0; i < numStages; ++i)
-        if (stages[static_cast<std::size_t>(i)].active)
-            n += stages[static_cast<std::size_t>(i)].count;
+    {
+        const Voice& v = stages[static_cast<std::size_t>(i)].live;
+        if (v.kind == Voice::Kind::sections)
+            n += v.count;
+    }
     return n;
+}
+
+namespace
+{
+/// Whether the stage at position i of a chain may get a live instance: the chain holds at
+/// most kMaxCombStages combs and kMaxEchoStages echo stages (counted in order).
+bool stageAllowed(const ChainSpec& chain, int i, int maxEcho, int maxComb) noexcept
+{
+    const StageType t = chain.stages[static_cast<std::size_t>(i)].type;
+    if (t != StageType::comb && t != StageType::echoCancel)
+        return true;
+    int before = 0;
+    for (int k = 0; k < i; ++k)
+        before += chain.stages[static_cast<std::size_t>(k)].type == t ? 1 : 0;
+    return before < (t == StageType::comb ? maxComb : maxEcho);
+}
+
+/// Folded stereo-kernel values of a section: a1, a2, g, c0, c1, c2 with
+/// y = mHigh (v0 - k v1 - v2) + mBand v1 + mLow v2 = c0 v0 + c1 v1 + c2 v2.
+void foldCoeffs(const SvfCoeffs& c, double* out) noexcept
+{
+    const double folded[6] = {c.a1, c.a2, c.g, c.mHigh, c.mBand - c.mHigh * c.k, c.mLow - c.mHigh};
+    for (int m = 0; m < 6; ++m)
+        out[2 * m] = out[2 * m + 1] = folded[m];
+}
+} // namespace
+
+void ChainProcessor::setSectionCoeffs(int idx, const SvfCoeffs& c) noexcept
+{
+    const auto i = static_cast<std::size_t>(idx);
+    coeffs[i] = c;
+    foldCoeffs(c, pairCoeffs[i].a1);
+    knotCoeffs[i] = pairCoeffs[i];
+    pairDelta[i] = PairCoeffs{};
+    ramping[i] = false;
+}
+
+ChainProcessor::Voice ChainProcessor::makeVoice(int stage, const StageSpec& spec, int bank,
+                                                bool allowed) noexcept
+{
+    Voice v;
+    v.channels = spec.channels;
+    if (!spec.enabled || !allowed || scratch.empty())
+        return v;
+    if (spec.type == StageType::comb)
+    {
+        for (std::size_t k = 0; k < combPool.size(); ++k)
+            if (!combBusy[k])
+            {
+                combBusy[k] = true;
+                combPool[k].reset();
+                combPool[k].setSettings(spec.comb);
+                v.kind = Voice::Kind::comb;
+                v.pool = static_cast<int>(k);
+                break;
+            }
+        return v;
+    }
+    if (spec.type == StageType::echoCancel)
+    {
+        if (spec.nonCausal) // cannot run live: left to the offline renderer
+            return v;
+        for (std::size_t k = 0; k < echoPool.size(); ++k)
+            if (!echoBusy[k])
+            {
+                echoBusy[k] = true;
+                echoPool[k].reset();
+                echoPool[k].setSettings(spec.echo);
+                v.kind = Voice::Kind::echo;
+                v.pool = static_cast<int>(k);
+                break;
+            }
+        return v;
+    }
+    const StageSections designed = designStage(spec, sampleRate);
+    if (designed.count == 0)
+        return v;
+    v.kind = Voice::Kind::sections;
+    v.bank = bank;
+    v.first = slot(bank, stage, 0);
+    v.count = designed.count;
+    for (int j = 0; j < designed.count; ++j)
+    {
+        const int idx = v.first + j;
+        setSectionCoeffs(idx, toSvf(designed.sections[static_cast<std::size_t>(j)]));
+        glides[static_cast<std::size_t>(idx)].on = false;
+        // A new instance starts from rest.
+        pairState[static_cast<std::size_t>(idx)] = PairState{};
+        for (auto& channel : extraState)
+            channel[static_cast<std::size_t>(idx)].reset();
+    }
+    return v;
+}
+
+void ChainProcessor::releaseVoice(Voice& v) noexcept
+{
+    if (v.kind == Voice::Kind::comb)
+        combBusy[static_cast<std::size_t>(v.pool)] = false;
+    else if (v.kind == Voice::Kind::echo)
+        echoBusy[static_cast<std::size_t>(v.pool)] = false;
+    else if (v.kind == Voice::Kind::sections)
+        freezeGlides(v);
+    v = Voice{};
+}
+
+void ChainProcessor::freezeGlides(const Voice& v) noexcept
+{
+    if (v.kind != Voice::Kind::sections)
+        return;
+    for (int idx = v.first; idx < v.first + v.count; ++idx)
+    {
+        const auto i = static_cast<std::size_t>(idx);
+        glides[i].on = false;
+        // Stay exactly where the last update left the section (coeffs holds that point).
+        setSectionCoeffs(idx, coeffs[i]);
+    }
+}
+
+void ChainProcessor::installNow(const ChainSpec& chain) noexcept
+{
+    for (auto& b : combBusy)
+        b = false;
+    for (auto& b : echoBusy)
+        b = false;
+    for (auto& g : glides)
+        g.on = false;
+    const int n = std::min(chain.numStages, kMaxStages);
+    for (int i = 0; i < n; ++i)
+    {
+        auto& st = stages[static_cast<std::size_t>(i)];
+        st = Stage{};
+        st.spec = chain.stages[static_cast<std::size_t>(i)];
+        st.live = makeVoice(i, st.spec, 0, stageAllowed(chain, i, kMaxEchoStages, kMaxCombStages));
+    }
+    for (int i = n; i < kMaxStages; ++i)
+        stages[static_cast<std::size_t>(i)] = Stage{};
+    numStages = n;
+    hasPending = false;
+    movingStages = 0;
+    anyActive = false;
+    for (int i = 0; i < n; ++i)
+        anyActive = anyActive || stages[static_cast<std::size_t>(i)].live.kind != Voice::Kind::none;
 }
 
 void ChainProcessor::setChain(const ChainSpec& chain) noexcept
 {
-    const int n = std::min(chain.numStages, kMaxStages);
-    int echoes = 0, combs = 0;
-    anyActive = false;
-    for (int i = 0; i < n; ++i)
+    if (!started)
     {
-        auto& st = stages[static_cast<std::size_t>(i)];
-        const StageSpec& spec = chain.stages[static_cast<std::size_t>(i)];
-        const bool wasActive = st.active && i < numStages;
-        if (spec.type == StageType::comb)
-        {
-            const bool live = spec.enabled && combs < kMaxCombStages && !scratch.empty();
-            const int slot = live ? combs++ : -1;
-            if (live)
-            {
-                auto& comb = combPool[static_cast<std::size_t>(slot)];
-                if (!(wasActive && !st.sections && st.comb == slot))
-                    comb.reset();
-                if (!(wasActive && spec == st.spec && st.comb == slot))
-                    comb.setSettings(spec.comb);
-            }
-            st.spec = spec;
-            st.sections = false;
-            st.count = 0;
-            st.echo = -1;
-            st.comb = slot;
-            st.active = live;
-            anyActive = anyActive || live;
-            continue;
-        }
-        if (!isSectionType(spec.type))
-        {
-            // An echo canceller from the pool, in order of appearance; a non-causal one
-            // cannot run live and is left to the offline renderer.
-            const bool live =
-                spec.enabled && !spec.nonCausal && echoes < kMaxEchoStages && !scratch.empty();
-            const int slot = live ? echoes++ : -1;
-            if (live)
-            {
-                auto& canceller = echoPool[static_cast<std::size_t>(slot)];
-                if (!(wasActive && !st.sections && st.echo == slot))
-                    canceller.reset();
-                if (!(wasActive && spec == st.spec && st.echo == slot))
-                    canceller.setSettings(spec.echo);
-            }
-            st.spec = spec;
-            st.sections = false;
-            st.count = 0;
-            st.comb = -1;
-            st.echo = slot;
-            st.active = live;
-            anyActive = anyActive || live;
-            continue;
-        }
-        if (wasActive && st.sections && spec == st.spec)
-        {
-            anyActive = true;
-            continue;
-        }
-        if (!st.sections)
-            st = Stage{}; // was an echo stage: its sections start from rest
-        const StageSections designed = designStage(spec, sampleRate);
-        const int base = i * kMaxSectionsPerStage;
-        for (int j = 0; j < designed.count; ++j)
-        {
-            const auto idx = static_cast<std::size_t>(base + j);
-            const SvfCoeffs c = toSvf(designed.sections[static_cast<std::size_t>(j)]);
-            coeffs[idx] = c;
-            // y = mHigh (v0 - k v1 - v2) + mBand v1 + mLow v2, folded.
-            const double folded[6] = {
-                c.a1, c.a2, c.g, c.mHigh, c.mBand - c.mHigh * c.k, c.mLow - c.mHigh};
-            PairCoeffs& pc = pairCoeffs[idx];
-            double* lanes[6] = {pc.a1, pc.a2, pc.g, pc.c0, pc.c1, pc.c2};
-            for (int m = 0; m < 6; ++m)
-                lanes[m][0] = lanes[m][1] = folded[m];
-            // A section that was not running (stage off, or fewer sections before) starts
-            // from rest; running ones keep their memories.
-            if (!wasActive || j >= st.count)
-            {
-                pairState[idx] = PairState{};
-                for (auto& channel : extraState)
-                    channel[idx].reset();
-            }
-        }
-        st.spec = spec;
-        st.sections = true;
-        st.echo = -1;
-        st.count = designed.count;
-        st.active = designed.count > 0;
-        anyActive = anyActive || st.active;
+        installNow(chain);
+        return;
     }
-    for (int i = n; i < numStages; ++i)
-        stages[static_cast<std::size_t>(i)].active = false;
-    numStages = n;
+    pending = chain;
+    pending.numStages = std::min(chain.numStages, kMaxStages);
+    hasPending = true;
+}
+
+void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
+{
+    Stage& st = stages[static_cast<std::size_t>(stage)];
+    const StageSections designed = designStage(spec, sampleRate);
+    if (designed.count != st.live.count)
+    {
+        startCrossfade(stage, spec, true);
+        return;
+    }
+    const int len = transitionSamples(glideMs_, sampleRate);
+    for (int j = 0; j < designed.count; ++j)
+    {
+        Glide& g = glides[static_cast<std::size_t>(st.live.first + j)];
+        const SvfCoeffs target = toSvf(designed.sections[static_cast<std::size_t>(j)]);
+        g.from = g.on ? g.cur : toNatural(coeffs[static_cast<std::size_t>(st.live.first + j)]);
+        g.cur = g.from;
+        g.to = toNatural(target);
+        g.target = target;
+        g.pos = 0;
+        g.len = len;
+        g.on = true;
+    }
+    st.spec = spec;
+}
+
+void ChainProcessor::startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept
+{
+    Stage& st = stages[static_cast<std::size_t>(stage)];
+    freezeGlides(st.live);
+    st.out = st.live;
+    const int bank = st.out.kind == Voice::Kind::sections ? 1 - st.out.bank : 0;
+    st.live = makeVoice(stage, spec, bank, allowed);
+    st.spec = spec;
+    st.queued = false;
+    st.fading = st.out.kind != Voice::Kind::none || st.live.kind != Voice::Kind::none;
+    st.fadePos = 0;
+    st.fadeLen = transitionSamples(glideMs_, sampleRate);
+}
+
+void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) noexcept
+{
+    Stage& st = stages[static_cast<std::size_t>(stage)];
+    const bool glidable =
+        allowed && st.live.kind == Voice::Kind::sections && sectionsCanGlide(st.spec, spec);
+    if (st.fading)
+    {
+        // The incoming instance may glide on; anything else waits for the crossfade to end.
+        if (spec == st.spec)
+            st.queued = false;
+        else if (glidable)
+        {
+            startGlide(stage, spec);
+            st.queued = false;
+        }
+        else
+        {
+            st.queued = true;
+            st.queuedSpec = spec;
+            st.queuedAllowed = allowed;
+        }
+        return;
+    }
+    if (spec == st.spec)
+        return;
+    if (glidable)
+        startGlide(stage, spec);
+    else
+        startCrossfade(stage, spec, allowed);
+}
+
+void ChainProcessor::update() noexcept
+{
+    if (hasPending)
+    {
+        hasPending = false;
+        const int n = pending.numStages;
+        const int all = std::max(n, numStages);
+        for (int i = 0; i < all; ++i)
+        {
+            if (i < n)
+                retarget(i, pending.stages[static_cast<std::size_t>(i)],
+                         stageAllowed(pending, i, kMaxEchoStages, kMaxCombStages));
+            else
+            {
+                // A stage the new chain no longer has fades out.
+                StageSpec off = stages[static_cast<std::size_t>(i)].spec;
+                off.enabled = false;
+                retarget(i, off, true);
+            }
+        }
+        numStages = all;
+    }
+    constexpr int K = kUpdateIntervalSamples;
+    movingStages = 0;
+    anyActive = false;
+    for (int i = 0; i < numStages; ++i)
+    {
+        Stage& st = stages[static_cast<std::size_t>(i)];
+        if (st.fading && st.fadePos >= st.fadeLen)
+        {
+            releaseVoice(st.out);
+            st.fading = false;
+            if (st.queued)
+            {
+                st.queued = false;
+                retarget(i, st.queuedSpec, st.queuedAllowed);
+            }
+        }
+        bool gliding = false;
+        if (st.live.kind == Voice::Kind::sections)
+            for (int idx = st.live.first; idx < st.live.first + st.live.count; ++idx)
+            {
+                const auto u = static_cast<std::size_t>(idx);
+                Glide& g = glides[u];
+                if (!g.on)
+                    continue;
+                if (g.pos >= g.len)
+                {
+                    // Arrived: exactly the designed target from here on.
+                    g.on = false;
+                    setSectionCoeffs(idx, g.target);
+                    continue;
+                }
+                gliding = true;
+                g.pos = std::min(g.pos + K, g.len);
+                SvfCoeffs end = g.target;
+                if (g.pos < g.len)
+                {
+                    g.cur = blend(
+                        g.from, g.to,
+                        transitionCurve(static_cast<double>(g.pos) / static_cast<double>(g.len)));
+                    end = fromNatural(g.cur);
+                }
+                else
+                    g.cur = g.to;
+                // Per-sample linear steps from the last update's exact values to this one's.
+                coeffs[u] = end;
+                pairCoeffs[u] = knotCoeffs[u];
+                foldCoeffs(end, knotCoeffs[u].a1);
+                const double* a = pairCoeffs[u].a1;
+                const double* b = knotCoeffs[u].a1;
+                double* d = pairDelta[u].a1;
+                for (int m = 0; m < 12; ++m)
+                    d[m] = (b[m] - a[m]) / K;
+                ramping[u] = true;
+            }
+        if (st.fading || st.queued || gliding)
+            ++movingStages;
+        anyActive = anyActive || st.fading || st.live.kind != Voice::Kind::none;
+    }
 }
 
 void ChainProcessor::runSections(int channel, int firstSection, int count, double* x,
@@ -265,14 +503,42 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
     for (int j = firstSection; j < firstSection + count; ++j)
     {
         const auto idx = static_cast<std::size_t>(j);
-        const SvfCoeffs k = coeffs[idx];
         SvfState s;
         if (channel < 2)
             s = {pairState[idx].ic1[channel], pairState[idx].ic2[channel]};
         else
             s = extraState[static_cast<std::size_t>(channel - 2)][idx];
-        for (int n = 0; n < len; ++n)
-            x[n] = processSvf(k, s, x[n]);
+        if (!ramping[idx])
+        {
+            const SvfCoeffs k = coeffs[idx];
+            for (int n = 0; n < len; ++n)
+                x[n] = processSvf(k, s, x[n]);
+        }
+        else
+        {
+            // Gliding: the folded form with its coefficients stepping linearly per sample
+            // from the last update's values (the stereo kernel's arithmetic, one lane).
+            const double* c = pairCoeffs[idx].a1;
+            const double* d = pairDelta[idx].a1;
+            double a1 = c[0], a2 = c[2], g = c[4], c0 = c[6], c1 = c[8], c2 = c[10];
+            double ic1 = s.ic1eq, ic2 = s.ic2eq;
+            for (int n = 0; n < len; ++n)
+            {
+                const double v0 = x[n];
+                const double v1 = a2 * (v0 - ic2) + a1 * ic1;
+                const double v2 = g * v1 + ic2;
+                ic1 = 2.0 * v1 - ic1;
+                ic2 = 2.0 * v2 - ic2;
+                x[n] = c2 * v2 + (c1 * v1 + c0 * v0);
+                a1 += d[0];
+                a2 += d[2];
+                g += d[4];
+                c0 += d[6];
+                c1 += d[8];
+                c2 += d[10];
+            }
+            s = {ic1, ic2};
+        }
         if (channel < 2)
         {
             pairState[idx].ic1[channel] = s.ic1eq;
@@ -285,11 +551,13 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
 
 namespace
 {
-/// The stereo kernel's view of one section: coefficient lanes and state lanes.
+/// The stereo kernel's view of one section: coefficient lanes and state lanes, and while
+/// gliding the per-sample step of each coefficient.
 struct StretchSection
 {
-    const double* coeffs; // a1, a2, g, c0, c1, c2 pairs
-    double* state;        // ic1, ic2 pairs
+    double* coeffs;      // a1, a2, g, c0, c1, c2 pairs
+    double* state;       // ic1, ic2 pairs
+    const double* delta; // the same six pairs: added after every sample while gliding
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -308,6 +576,15 @@ struct StretchSection
                     MUL_ADD(_mm_load_pd(c + 8), v1, _mm_mul_pd(_mm_load_pd(c + 6), v)));           \
     }
 
+/// The glide step: every coefficient pair moves by its per-sample step.
+#define KERF_RAMP_STEP                                                                             \
+    {                                                                                              \
+        const double* dl = sections[j].delta;                                                      \
+        for (int m = 0; m < 12; m += 2)                                                            \
+            _mm_store_pd(c + m, _mm_add_pd(_mm_load_pd(c + m), _mm_load_pd(dl + m)));              \
+    }
+#define KERF_NO_RAMP_STEP
+
 inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 {
     return _mm_add_pd(_mm_mul_pd(a, b), c);
@@ -318,7 +595,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 /// are independent, so the processor overlaps them instead of waiting on each section's
 /// recursion in turn; the fill and drain at the block's ends keep the result exact, with
 /// no added latency. `carry[j]` holds the sample waiting to enter section j.
-#define KERF_STRETCH_BODY(MUL_ADD)                                                                 \
+#define KERF_STRETCH_BODY(MUL_ADD, RAMP)                                                           \
     const int last = count - 1;                                                                    \
     for (int t = 0; t < len + last; ++t)                                                           \
     {                                                                                              \
@@ -328,35 +605,50 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
         {                                                                                          \
             const int n = t - j;                                                                   \
             __m128d v = j == 0 ? _mm_set_pd(r[n], l[n]) : carry[j];                                \
-            const double* c = sections[j].coeffs;                                                  \
+            double* c = sections[j].coeffs;                                                        \
             double* st = sections[j].state;                                                        \
             KERF_SECTION_STEP(MUL_ADD)                                                             \
-            if (j == last)                                                                         \
+            RAMP if (j == last)                                                                    \
             {                                                                                      \
                 l[n] = _mm_cvtsd_f64(v);                                                           \
                 r[n] = _mm_cvtsd_f64(_mm_unpackhi_pd(v, v));                                       \
             }                                                                                      \
-            else                                                                                   \
-                carry[j + 1] = v;                                                                  \
+            else carry[j + 1] = v;                                                                 \
         }                                                                                          \
     }
 
 void stretchKernel(const StretchSection* sections, int count, double* l, double* r, int len,
                    __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(mulAdd)
+    KERF_STRETCH_BODY(mulAdd, KERF_NO_RAMP_STEP)
+}
+
+/// The kernel while sections glide (coefficients step per sample).
+void stretchKernelRamp(const StretchSection* sections, int count, double* l, double* r, int len,
+                       __m128d* carry) noexcept
+{
+    KERF_STRETCH_BODY(mulAdd, KERF_RAMP_STEP)
 }
 
 #if defined(__x86_64__) && defined(__GNUC__)
-/// The same kernel with fused multiply-adds, for processors that have them (chosen once at
+/// The same kernels with fused multiply-adds, for processors that have them (chosen once at
 /// run time). FMA rounds once where the plain kernel rounds twice, so results differ in the
 /// last bits between machines, never within one.
+__attribute__((target("fma"))) void stretchKernelFma(const StretchSection* sections, int count,
+                                                     double* l, double* r, int len,
+                                                     __m128d* carry) noexcept
+{
+    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_NO_RAMP_STEP)
+}
+
 __attribute__((target("fma"))) void
-stretchKernelFma(const StretchSection* sections, int count, double* l, double* r, int len,
-                 __m128d* carry) noexcept {KERF_STRETCH_BODY(_mm_fmadd_pd)}
+stretchKernelRampFma(const StretchSection* sections, int count, double* l, double* r, int len,
+                     __m128d* carry) noexcept {KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_RAMP_STEP)}
 #endif
 #undef KERF_STRETCH_BODY
 #undef KERF_SECTION_STEP
+#undef KERF_RAMP_STEP
+#undef KERF_NO_RAMP_STEP
 #else
 #error "Kerf's processing kernels need SSE2 (x86-64); add a portable kernel for other CPUs."
 #endif
@@ -386,12 +678,17 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
     // instead of waiting on one section's recursion; both channels share one vector.
     std::array<StretchSection, kMaxSections> list;
     int count = 0;
+    bool ramp = false;
     for (int s = first; s < end; ++s)
     {
-        const int base = s * kMaxSectionsPerStage;
-        for (int j = base; j < base + stages[static_cast<std::size_t>(s)].count; ++j)
-            list[static_cast<std::size_t>(count++)] = {pairCoeffs[static_cast<std::size_t>(j)].a1,
-                                                       pairState[static_cast<std::size_t>(j)].ic1};
+        const Voice& v = stages[static_cast<std::size_t>(s)].live;
+        for (int j = v.first; j < v.first + v.count; ++j)
+        {
+            const auto u = static_cast<std::size_t>(j);
+            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1,
+                                                       pairDelta[u].a1};
+            ramp = ramp || ramping[u];
+        }
     }
     if (count == 0)
         return;
@@ -399,11 +696,114 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
 #if defined(__x86_64__) && defined(__GNUC__)
     if (hasFma())
     {
-        stretchKernelFma(list.data(), count, l, r, len, carry);
+        (ramp ? stretchKernelRampFma : stretchKernelFma)(list.data(), count, l, r, len, carry);
         return;
     }
 #endif
-    stretchKernel(list.data(), count, l, r, len, carry);
+    (ramp ? stretchKernelRamp : stretchKernel)(list.data(), count, l, r, len, carry);
+}
+
+void ChainProcessor::addVoice(const Voice& v, const double* wIn, const double* wOut,
+                              double* const* x, double* const* acc, int nch, int len) noexcept
+{
+    // acc += wOut * (H(wIn x) - wIn x): the voice's deviation from the dry signal, for its
+    // faded input.
+    constexpr int K = kUpdateIntervalSamples;
+    double lane[kMaxChannels][K];
+    double* lanes[kMaxChannels];
+    for (int ch = 0; ch < kMaxChannels; ++ch)
+        lanes[ch] = lane[ch];
+    auto feed = [&](int ch, const double* src)
+    {
+        for (int n = 0; n < len; ++n)
+            lane[ch][n] = wIn[n] * src[n];
+    };
+    auto give = [&](int ch, const double* src, double* dst, double sign)
+    {
+        for (int n = 0; n < len; ++n)
+            dst[n] += sign * wOut[n] * (lane[ch][n] - wIn[n] * src[n]);
+    };
+    switch (v.kind)
+    {
+    case Voice::Kind::none:
+        return;
+    case Voice::Kind::echo:
+    case Voice::Kind::comb:
+        for (int ch = 0; ch < nch; ++ch)
+            feed(ch, x[ch]);
+        if (v.kind == Voice::Kind::echo)
+            echoPool[static_cast<std::size_t>(v.pool)].process(lanes, nch, len);
+        else
+            combPool[static_cast<std::size_t>(v.pool)].process(lanes, nch, len);
+        for (int ch = 0; ch < nch; ++ch)
+            give(ch, x[ch], acc[ch], 1.0);
+        return;
+    case Voice::Kind::sections:
+        break;
+    }
+    const bool stereo = nch >= 2;
+    const ChannelMode mode = v.channels;
+    if (mode == ChannelMode::both || !stereo)
+    {
+        if (!stereo && mode == ChannelMode::side)
+            return; // a mono signal has no side
+        for (int ch = 0; ch < nch; ++ch)
+        {
+            feed(ch, x[ch]);
+            runSections(ch, v.first, v.count, lane[ch], len);
+            give(ch, x[ch], acc[ch], 1.0);
+        }
+        return;
+    }
+    if (mode == ChannelMode::left || mode == ChannelMode::right)
+    {
+        const int ch = mode == ChannelMode::left ? 0 : 1;
+        feed(ch, x[ch]);
+        runSections(ch, v.first, v.count, lane[ch], len);
+        give(ch, x[ch], acc[ch], 1.0);
+        return;
+    }
+    // Mid or side: the stage's deviation adds to both channels (with the side's sign).
+    double m[K];
+    const double sign = mode == ChannelMode::mid ? 1.0 : -1.0;
+    for (int n = 0; n < len; ++n)
+        m[n] = 0.5 * (x[0][n] + sign * x[1][n]);
+    feed(0, m);
+    runSections(0, v.first, v.count, lane[0], len);
+    give(0, m, acc[0], 1.0);
+    give(0, m, acc[1], sign);
+}
+
+void ChainProcessor::runFading(int stage, int nch, int len) noexcept
+{
+    // y = x + (1 - s) G_old((1 - s) x) + G_new(s x), G = H - 1 (Smoothing/Transition.h).
+    constexpr int K = kUpdateIntervalSamples;
+    Stage& st = stages[static_cast<std::size_t>(stage)];
+    double in[K], outIn[K], one[K];
+    for (int n = 0; n < len; ++n)
+    {
+        const double s = transitionCurve(static_cast<double>(st.fadePos + n + 1) /
+                                         static_cast<double>(st.fadeLen));
+        in[n] = s;
+        outIn[n] = 1.0 - s;
+        one[n] = 1.0;
+    }
+    double* x[kMaxChannels] = {};
+    double accStore[kMaxChannels][K];
+    double* acc[kMaxChannels] = {};
+    for (int ch = 0; ch < nch; ++ch)
+    {
+        x[ch] = scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
+        acc[ch] = accStore[ch];
+        for (int n = 0; n < len; ++n)
+            acc[ch][n] = x[ch][n];
+    }
+    addVoice(st.out, outIn, outIn, x, acc, nch, len);
+    addVoice(st.live, in, one, x, acc, nch, len);
+    for (int ch = 0; ch < nch; ++ch)
+        for (int n = 0; n < len; ++n)
+            x[ch][n] = acc[ch][n];
+    st.fadePos += len;
 }
 
 void ChainProcessor::runBlock(int nch, int len) noexcept
@@ -413,27 +813,40 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
         buf[ch] =
             scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
     const bool stereo = nch >= 2;
+    auto stretchable = [&](const Stage& s)
+    {
+        return !s.fading && s.live.kind == Voice::Kind::sections &&
+               (s.live.channels == ChannelMode::both || !stereo) &&
+               !(!stereo && s.live.channels == ChannelMode::side);
+    };
 
     int i = 0;
     while (i < numStages)
     {
         const Stage& st = stages[static_cast<std::size_t>(i)];
-        if (!st.active)
+        if (st.fading)
+        {
+            runFading(i, nch, len); // always within one update interval (processImpl)
+            ++i;
+            continue;
+        }
+        const Voice& v = st.live;
+        if (v.kind == Voice::Kind::none)
         {
             ++i;
             continue;
         }
-        if (!st.sections)
+        if (v.kind != Voice::Kind::sections)
         {
             // Echo cancellers and combs work on every channel.
-            if (st.echo >= 0)
-                echoPool[static_cast<std::size_t>(st.echo)].process(buf, nch, len);
+            if (v.kind == Voice::Kind::echo)
+                echoPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
             else
-                combPool[static_cast<std::size_t>(st.comb)].process(buf, nch, len);
+                combPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
             ++i;
             continue;
         }
-        const ChannelMode mode = st.spec.channels;
+        const ChannelMode mode = v.channels;
         if (mode == ChannelMode::both || !stereo)
         {
             if (!stereo && mode == ChannelMode::side)
@@ -444,32 +857,27 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
             // Consecutive stages on both channels run as one stretch of sections, whose
             // section state lives at fixed per-stage positions.
             int end = i;
-            while (end < numStages && stages[static_cast<std::size_t>(end)].active &&
-                   stages[static_cast<std::size_t>(end)].sections &&
-                   (stages[static_cast<std::size_t>(end)].spec.channels == ChannelMode::both ||
-                    !stereo) &&
-                   !(!stereo &&
-                     stages[static_cast<std::size_t>(end)].spec.channels == ChannelMode::side))
+            while (end < numStages && stretchable(stages[static_cast<std::size_t>(end)]))
                 ++end;
             if (nch == 2)
                 runStereoStretch(i, end, buf[0], buf[1], len);
             else
                 for (int s = i; s < end; ++s)
                     for (int ch = 0; ch < nch; ++ch)
-                        runSections(ch, s * kMaxSectionsPerStage,
-                                    stages[static_cast<std::size_t>(s)].count, buf[ch], len);
+                        runSections(ch, stages[static_cast<std::size_t>(s)].live.first,
+                                    stages[static_cast<std::size_t>(s)].live.count, buf[ch], len);
             i = end;
             continue;
         }
 
-        const int base = i * kMaxSectionsPerStage;
+        const int base = v.first;
         switch (mode)
         {
         case ChannelMode::left:
-            runSections(0, base, st.count, buf[0], len);
+            runSections(0, base, v.count, buf[0], len);
             break;
         case ChannelMode::right:
-            runSections(1, base, st.count, buf[1], len);
+            runSections(1, base, v.count, buf[1], len);
             break;
         case ChannelMode::mid:
         case ChannelMode::side:
@@ -484,7 +892,7 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
                 r[n] = sd;
             }
             // The mid or side signal uses lane 0's memories.
-            runSections(0, base, st.count, mode == ChannelMode::mid ? l : r, len);
+            runSections(0, base, v.count, mode == ChannelMode::mid ? l : r, len);
             for (int n = 0; n < len; ++n)
             {
                 const double m = l[n], sd = r[n];
@@ -503,33 +911,51 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
 template <typename Sample>
 void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int numSamples) noexcept
 {
-    if (scratch.empty() || !anyActive)
+    if (scratch.empty() || numSamples <= 0)
         return;
+    started = true;
+    if (!anyActive && !isMoving())
+    {
+        clock += numSamples;
+        return;
+    }
     ScopedNoDenormals noDenormals;
     // Never more channels than prepared: the pooled stages hold state for that many.
     const int nch = std::min(numChannels, channelCount);
+    constexpr int K = kUpdateIntervalSamples;
     // Samples stay in double from the first section to the last; only the block's input
-    // and output are in the caller's sample type.
-    for (int start = 0; start < numSamples; start += blockSize)
+    // and output are in the caller's sample type. While anything moves, pieces end at the
+    // update points of the processor's own clock, so the output does not depend on how the
+    // caller splits its blocks.
+    for (int start = 0; start < numSamples;)
     {
-        const int len = std::min(blockSize, numSamples - start);
-        for (int ch = 0; ch < nch; ++ch)
+        if (isMoving() && clock % K == 0)
+            update();
+        int len = std::min(blockSize, numSamples - start);
+        if (isMoving())
+            len = std::min(len, K - static_cast<int>(clock % K));
+        if (anyActive)
         {
-            double* b =
-                scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
-            const Sample* x = channels[ch] + start;
-            for (int n = 0; n < len; ++n)
-                b[n] = static_cast<double>(x[n]);
+            for (int ch = 0; ch < nch; ++ch)
+            {
+                double* b = scratch.data() +
+                            static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
+                const Sample* x = channels[ch] + start;
+                for (int n = 0; n < len; ++n)
+                    b[n] = static_cast<double>(x[n]);
+            }
+            runBlock(nch, len);
+            for (int ch = 0; ch < nch; ++ch)
+            {
+                const double* b = scratch.data() + static_cast<std::size_t>(ch) *
+                                                       static_cast<std::size_t>(blockSize);
+                Sample* x = channels[ch] + start;
+                for (int n = 0; n < len; ++n)
+                    x[n] = static_cast<Sample>(b[n]);
+            }
         }
-        runBlock(nch, len);
-        for (int ch = 0; ch < nch; ++ch)
-        {
-            const double* b =
-                scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
-            Sample* x = channels[ch] + start;
-            for (int n = 0; n < len; ++n)
-                x[n] = static_cast<Sample>(b[n]);
-        }
+        clock += len;
+        start += len;
     }
 }
 

@@ -3,6 +3,7 @@
 // hold) and its realtime processor (prepare / reset / process).
 #include "Design/PassFilters.h"
 #include "Design/Sections.h"
+#include "Smoothing/Transition.h"
 #include "Stages/CombStage.h"
 #include "Stages/EchoCanceller.h"
 #include "Stages/SvfSection.h"
@@ -141,9 +142,18 @@ public:
     void prepare(double sampleRateHz, int maxBlockSize, int numChannels);
     /// Clears every filter memory.
     void reset() noexcept;
-    /// Installs a new chain. Only stages whose settings changed are redesigned; filter
-    /// memories carry over per stage position, and a stage that was off starts from rest.
+    /// Installs a new chain. The first chain after prepare() or reset() (before any sample is
+    /// processed) takes effect at once. Later chains are targets the click-free layer moves
+    /// to (Smoothing/Transition.h), taken at the next update (every kUpdateIntervalSamples
+    /// samples of the processor's own clock): stage by stage, moderate moves of frequency,
+    /// gain, Q and slope glide over the glide time; anything else crossfades. Stages whose
+    /// settings did not change are untouched, and filter memories carry over.
     void setChain(const ChainSpec& chain) noexcept;
+    /// Glide and crossfade time, ms (0 = kMinTransitionMs; default kDefaultGlideMs).
+    void setGlideMs(double ms) noexcept;
+    double glideMs() const noexcept { return glideMs_; }
+    /// True while any stage glides, crossfades or waits for the next update.
+    bool isMoving() const noexcept;
 
     /// Processes numSamples of numChannels in place (float or double samples). Blocks
     /// longer than the prepared size are processed in pieces.
@@ -159,14 +169,43 @@ public:
     int activeSections() const noexcept;
 
 private:
+    /// Section banks per stage: a crossfade runs the old and the new sections side by side.
+    static constexpr int kBanks = 2;
+    static constexpr int kMaxSectionSlots = kBanks * kMaxSections;
+    /// One instance of a stage: its sections (a bank) or an echo canceller or comb from a pool.
+    struct Voice
+    {
+        enum class Kind
+        {
+            none,
+            sections,
+            echo,
+            comb
+        } kind = Kind::none;
+        int bank = 0;  // sections: bank 0 or 1
+        int count = 0; // sections: how many, at section slot bank*kMaxSections + stage*4 + j
+        ChannelMode channels = ChannelMode::both;
+        int first = 0; // sections: slot of the first, bank * kMaxSections + stage * 4
+        int pool = -1; // echo/comb: index into echoPool / combPool
+    };
     struct Stage
     {
-        StageSpec spec;
-        bool active = false;
-        bool sections = true; // parametric sections; false: a pooled stage (echo or comb)
-        int count = 0;        // sections, stored at [index * kMaxSectionsPerStage, + count)
-        int echo = -1;        // index into echoPool (echo_cancel)
-        int comb = -1;        // index into combPool (comb)
+        StageSpec spec; // the settings the live voice has or glides to
+        Voice live;     // what runs (and, during a crossfade, fades in)
+        Voice out;      // during a crossfade: what fades out
+        bool fading = false;
+        int fadePos = 0, fadeLen = 0;
+        bool queued = false; // a change that waits for the running crossfade to end
+        StageSpec queuedSpec;
+        bool queuedAllowed = true;
+    };
+    /// A section's glide in the natural domain (Smoothing/Transition.h).
+    struct Glide
+    {
+        bool on = false;
+        int pos = 0, len = 0;
+        SvfNatural from, to, cur;
+        SvfCoeffs target;
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
     /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
@@ -185,20 +224,51 @@ private:
     void runBlock(int numChannels, int len) noexcept;
     void runSections(int channel, int firstSection, int count, double* x, int len) noexcept;
     void runStereoStretch(int first, int end, double* l, double* r, int len) noexcept;
+    static int slot(int bank, int stage, int j) noexcept
+    {
+        return bank * kMaxSections + stage * kMaxSectionsPerStage + j;
+    }
+    // Click-free layer (Chain.cpp, "transitions").
+    void installNow(const ChainSpec& chain) noexcept;
+    Voice makeVoice(int stage, const StageSpec& spec, int bank, bool allowed) noexcept;
+    void setSectionCoeffs(int idx, const SvfCoeffs& c) noexcept;
+    void releaseVoice(Voice& v) noexcept;
+    void retarget(int stage, const StageSpec& spec, bool allowed) noexcept;
+    void startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept;
+    void startGlide(int stage, const StageSpec& spec) noexcept;
+    void freezeGlides(const Voice& v) noexcept;
+    void update() noexcept; // at every update point while something moves
+    void runFading(int stage, int numChannels, int len) noexcept;
+    void addVoice(const Voice& v, const double* wIn, const double* wOut, double* const* x,
+                  double* const* acc, int numChannels, int len) noexcept;
 
     double sampleRate = 48000.0;
     int channelCount = 2;
     int blockSize = 0;
     int numStages = 0;
     std::array<Stage, kMaxStages> stages{};
-    std::array<SvfCoeffs, kMaxSections> coeffs{};
-    std::array<PairCoeffs, kMaxSections> pairCoeffs{};
-    std::array<PairState, kMaxSections> pairState{}; // channels 0 and 1
-    std::array<std::array<SvfState, kMaxSections>, kMaxChannels - 2> extraState{}; // 2..7
+    std::array<SvfCoeffs, kMaxSectionSlots> coeffs{};
+    std::array<PairCoeffs, kMaxSectionSlots> pairCoeffs{};
+    std::array<PairCoeffs, kMaxSectionSlots> pairDelta{};  // per-sample ramp while gliding
+    std::array<PairCoeffs, kMaxSectionSlots> knotCoeffs{}; // exact values at the last update
+    std::array<bool, kMaxSectionSlots> ramping{};
+    std::array<Glide, kMaxSectionSlots> glides{};
+    std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
+    std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
-    std::array<EchoCanceller, kMaxEchoStages> echoPool;
-    std::array<CombStage, kMaxCombStages> combPool;
+    // Two instances per stage the chain may hold: a crossfade runs old and new together.
+    std::array<EchoCanceller, 2 * kMaxEchoStages> echoPool;
+    std::array<CombStage, 2 * kMaxCombStages> combPool;
+    std::array<bool, 2 * kMaxEchoStages> echoBusy{};
+    std::array<bool, 2 * kMaxCombStages> combBusy{};
     bool anyActive = false;
+    // Click-free layer.
+    double glideMs_ = kDefaultGlideMs;
+    ChainSpec pending{};
+    bool hasPending = false;
+    bool started = false; // a sample was processed since prepare() / reset()
+    long long clock = 0;  // samples processed since prepare() / reset()
+    int movingStages = 0; // stages gliding or crossfading (recounted at every update)
 };
 
 /// Flushes denormals to zero on this thread for its lifetime (x86 SSE; no-op elsewhere).

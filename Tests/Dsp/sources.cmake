@@ -7,3 +7,4 @@ list(APPEND KERF_DSP_TEST_SOURCES
   ${CMAKE_CURRENT_LIST_DIR}/CombTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/EchoCancellerTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/EchoEstimatorTests.cpp)
+list(APPEND KERF_DSP_TEST_SOURCES ${CMAKE_CURRENT_LIST_DIR}/SmoothingTests.cpp)
