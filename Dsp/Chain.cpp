@@ -326,6 +326,7 @@ void ChainProcessor::installNow(const ChainSpec& chain) noexcept
     for (int i = n; i < kMaxStages; ++i)
         stages[static_cast<std::size_t>(i)] = Stage{};
     numStages = n;
+    targetStages = n;
     hasPending = false;
     movingStages = 0;
     anyActive = false;
@@ -340,8 +341,21 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
         installNow(chain);
         return;
     }
+    const int n = std::min(chain.numStages, kMaxStages);
+    // The same targets again (a host re-sending its parameters): nothing to do.
+    bool same = hasPending ? n == pending.numStages : n == targetStages;
+    for (int i = 0; same && i < n; ++i)
+    {
+        const auto u = static_cast<std::size_t>(i);
+        const StageSpec& now = hasPending         ? pending.stages[u]
+                               : stages[u].queued ? stages[u].queuedSpec
+                                                  : stages[u].spec;
+        same = chain.stages[u] == now;
+    }
+    if (same)
+        return;
     pending = chain;
-    pending.numStages = std::min(chain.numStages, kMaxStages);
+    pending.numStages = n;
     hasPending = true;
 }
 
@@ -436,6 +450,7 @@ void ChainProcessor::update() noexcept
             }
         }
         numStages = all;
+        targetStages = n;
     }
     constexpr int K = kUpdateIntervalSamples;
     movingStages = 0;
@@ -494,6 +509,14 @@ void ChainProcessor::update() noexcept
         if (st.fading || st.queued || gliding)
             ++movingStages;
         anyActive = anyActive || st.fading || st.live.kind != Voice::Kind::none;
+    }
+    // Stages the chain no longer has are dropped once they have faded out.
+    while (numStages > targetStages)
+    {
+        const Stage& last = stages[static_cast<std::size_t>(numStages - 1)];
+        if (last.fading || last.queued || last.live.kind != Voice::Kind::none)
+            break;
+        stages[static_cast<std::size_t>(--numStages)] = Stage{};
     }
 }
 

@@ -266,6 +266,7 @@ private:
     double glideMs_ = kDefaultGlideMs;
     ChainSpec pending{};
     bool hasPending = false;
+    int targetStages = 0; // stages of the chain last given (numStages may run longer)
     bool started = false; // a sample was processed since prepare() / reset()
     long long clock = 0;  // samples processed since prepare() / reset()
     int movingStages = 0; // stages gliding or crossfading (recounted at every update)
