@@ -282,6 +282,18 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
     layout.add(std::make_unique<juce::AudioParameterFloat>(
         juce::ParameterID{ids::protectCeiling, kParameterVersion}, "Protection ceiling",
         dbRange(-24.0f, 0.0f), -1.0f, gainAttr));
+    // Glide time on a 0.1 ms grid, more knob travel for short times (centre 60 ms).
+    juce::NormalisableRange<float> glideRange(0.0f, static_cast<float>(dsp::kMaxGlideMs), 0.1f);
+    glideRange.setSkewForCentre(60.0f);
+    layout.add(std::make_unique<juce::AudioParameterFloat>(
+        juce::ParameterID{ids::glideMs, kParameterVersionGlide}, "Glide time", glideRange,
+        static_cast<float>(dsp::kDefaultGlideMs),
+        AudioParameterFloatAttributes()
+            .withLabel("ms")
+            .withStringFromValueFunction([](float v, int) { return juce::String(v, 1) + " ms"; })
+            .withValueFromStringFunction(
+                [](const juce::String& t)
+                { return t.trim().removeCharacters(" ms").getFloatValue(); })));
     return layout;
 }
 
@@ -306,6 +318,7 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
     outputGainDb = state.getRawParameterValue(ids::outputGain);
     protectOn = state.getRawParameterValue(ids::protectOn);
     protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
+    glideMs = state.getRawParameterValue(ids::glideMs);
     for (int c = 0; c < kNumCombSlots; ++c)
     {
         auto& k = combs[static_cast<std::size_t>(c)];

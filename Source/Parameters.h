@@ -21,8 +21,11 @@ enum class SlotAlignment
 /// Largest |gain| of a reflection in the plugin: the live inverse must stay causal.
 inline constexpr float kPluginEchoGainMax = 0.95f;
 
-/// Parameter-layout version hint passed to juce::ParameterID.
+/// Parameter-layout version hint passed to juce::ParameterID: the version in which a
+/// parameter first appeared (hosts order and keep parameters by it; IDs never change).
 inline constexpr int kParameterVersion = 1;
+/// Version hint of parameters added with the click-free layer (the glide time).
+inline constexpr int kParameterVersionGlide = 2;
 /// Section slots the plugin offers.
 inline constexpr int kNumSectionSlots = 24;
 /// Comb slots the plugin offers (after the sections in the chain).
@@ -46,6 +49,8 @@ juce::String slotDesign(int slot); ///< "sec01_design"
 inline const juce::String outputGain = "out_gain";
 inline const juce::String protectOn = "protect_on";
 inline const juce::String protectCeiling = "protect_ceiling";
+/// Glide and crossfade time of every change, ms (0 = the shortest clean move).
+inline const juce::String glideMs = "glide_ms";
 inline const juce::String echoOn = "echo_on";
 inline const juce::String echoMethod = "echo_method";
 inline const juce::String echoTerms = "echo_terms";
@@ -82,6 +87,7 @@ struct ParameterRefs
     std::atomic<float>* outputGainDb = nullptr;
     std::atomic<float>* protectOn = nullptr;
     std::atomic<float>* protectCeilingDb = nullptr;
+    std::atomic<float>* glideMs = nullptr;
     std::atomic<float>* echoOn = nullptr;
     std::atomic<float>* echoMethod = nullptr;
     std::atomic<float>* echoTerms = nullptr;

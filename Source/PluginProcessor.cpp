@@ -34,6 +34,7 @@ void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
     chain.prepare(sampleRate, samplesPerBlock, juce::jmax(getTotalNumOutputChannels(), 1));
     capture.prepare(sampleRate);
     refs.readChain(snapshot);
+    chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
     chain.setChain(snapshot);
     lastOutputGain = juce::Decibels::decibelsToGain(refs.outputGainDb->load(), -120.0f);
     setLatencySamples(0);
@@ -50,9 +51,24 @@ template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Samp
     // The echo estimate listens to the input as it arrives, before any processing.
     capture.push(buffer.getArrayOfReadPointers(), getTotalNumInputChannels(), numSamples);
 
-    refs.readChain(snapshot);
-    chain.setChain(snapshot);
-    chain.process(buffer.getArrayOfWritePointers(), numChannels, numSamples);
+    // Hosts here give no sample offsets for parameter changes (JUCE 7.0.5's wrappers apply
+    // them at block start), so the parameters are read again every kUpdateIntervalSamples
+    // samples of the block: a change takes effect within that many samples, and the chain
+    // glides or crossfades to it (Dsp/Smoothing). Preset loads and state restores arrive as
+    // parameter changes and move the same way.
+    chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
+    Sample* const* io = buffer.getArrayOfWritePointers();
+    Sample* piece[dsp::ChainProcessor::kMaxChannels];
+    const int pieceChannels = juce::jmin(numChannels, dsp::ChainProcessor::kMaxChannels);
+    for (int start = 0; start < numSamples; start += dsp::kUpdateIntervalSamples)
+    {
+        const int len = juce::jmin(dsp::kUpdateIntervalSamples, numSamples - start);
+        for (int ch = 0; ch < pieceChannels; ++ch)
+            piece[ch] = io[ch] + start;
+        refs.readChain(snapshot);
+        chain.setChain(snapshot);
+        chain.process(piece, pieceChannels, len);
+    }
 
     // Output gain ramps across the block so that a change does not click.
     const double target =

@@ -6,6 +6,7 @@
 #include <catch2/catch.hpp>
 
 #include <atomic>
+#include <cmath>
 #include <cstdlib>
 #include <new>
 #include <random>
@@ -96,4 +97,70 @@ TEST_CASE("realtime: processing with changing parameters never allocates", "[plu
     }
     CHECK(allocationsInCallback.load() == 0);
     CHECK(p.echoCapture().progress() > 0.0f); // it did record
+}
+
+TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never allocate",
+          "[plugin][smoothing]")
+{
+    // Common practice (no heap allocation on the audio thread), while the click-free layer
+    // works its hardest: every block size from 1 to 700, the glide time itself automated,
+    // parameters jumping (crossfades) and creeping (glides), factory programs loaded and two
+    // saved states swapped (an A/B comparison) between blocks, as a host's message thread
+    // would do them.
+    juce::ScopedJuceInitialiser_GUI init;
+    kerf::KerfProcessor p;
+    p.setPlayConfigDetails(2, 2, 48000.0, 700);
+    p.prepareToPlay(48000.0, 700);
+    juce::MemoryBlock stateA, stateB;
+    p.setCurrentProgram(1);
+    p.getStateInformation(stateA);
+    p.setCurrentProgram(p.getNumPrograms() - 1);
+    p.getStateInformation(stateB);
+    juce::AudioBuffer<float> buffer(2, 700);
+    juce::MidiBuffer midi;
+    const unsigned seed = 5151u;
+    INFO("seed " << seed);
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<float> u(0.0f, 1.0f);
+    auto params = p.getParameters();
+    auto* glide = p.state().getParameter(kerf::ids::glideMs);
+    REQUIRE(glide != nullptr);
+    bool finite = true;
+    for (int block = 0; block < 1500; ++block)
+    {
+        const int n = 1 + static_cast<int>(u(rng) * 699.0f);
+        const float what = u(rng);
+        if (what < 0.05f)
+            p.setCurrentProgram(static_cast<int>(u(rng) * static_cast<float>(p.getNumPrograms())));
+        else if (what < 0.10f)
+        {
+            const auto& s = block % 2 ? stateA : stateB;
+            p.setStateInformation(s.getData(), static_cast<int>(s.getSize()));
+        }
+        else if (what < 0.15f)
+            glide->setValueNotifyingHost(u(rng));
+        else
+            for (int k = 0; k < 4; ++k)
+            {
+                auto* q = params[static_cast<int>(u(rng) * static_cast<float>(params.size() - 1))];
+                // Half creep (small moves glide), half jump (crossfades).
+                const float v =
+                    u(rng) < 0.5f
+                        ? juce::jlimit(0.0f, 1.0f, q->getValue() + 0.02f * (u(rng) - 0.5f))
+                        : u(rng);
+                q->setValueNotifyingHost(v);
+            }
+        juce::AudioBuffer<float> view(buffer.getArrayOfWritePointers(), 2, n);
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < n; ++i)
+                view.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
+        inAudioCallback = true;
+        p.processBlock(view, midi);
+        inAudioCallback = false;
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < n; ++i)
+                finite = finite && std::isfinite(view.getSample(ch, i));
+    }
+    CHECK(allocationsInCallback.load() == 0);
+    CHECK(finite);
 }
