@@ -1,4 +1,4 @@
-// `kerf render IN OUT --chain FILE [--bits 32|24|16]`
+// `kerf render IN OUT --chain FILE [--switch SECONDS:FILE]... [--glide MS] [--bits 32|24|16]`
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
@@ -16,13 +16,19 @@ namespace kerf::cli
 {
 
 const char* const kRenderHelp =
-    R"(Usage: kerf render IN OUT --chain FILE [--bits 32|24|16]
+    R"(Usage: kerf render IN OUT --chain FILE [--switch SECONDS:FILE]... [--glide MS]
+                  [--bits 32|24|16]
 
 Processes IN (WAV, AIFF or FLAC) through the chain in FILE with the same DSP code as the
 plugin and writes OUT as WAV with IN's sample rate, channel count and length.
 
 Options:
   --chain FILE   chain file (JSON, "format": "kerf-chain"), required
+  --switch T:FILE
+                 from T seconds into IN on, the chain in FILE (repeatable, T ascending);
+                 the change glides or crossfades exactly as in the plugin, no click
+  --glide MS     glide and crossfade time of the switches, 0 - 1000 ms (20; 0 = the
+                 shortest clean move, 6 ms)
   --bits N       32 (default): 32-bit float, keeps values above full scale;
                  24 or 16: PCM with TPDF dither; clipped samples are counted and reported
 
@@ -69,6 +75,10 @@ int runRender(Args args)
 {
     const auto chainPath = args.option("--chain");
     const auto bitsText = args.option("--bits");
+    const auto glideText = args.option("--glide");
+    juce::StringArray switchTexts;
+    for (auto t = args.option("--switch"); t.isNotEmpty(); t = args.option("--switch"))
+        switchTexts.add(t);
     if (args.missingValue)
     {
         printError("option " + args.missingName + " needs a value (see kerf render --help)");
@@ -94,6 +104,44 @@ int runRender(Args args)
             printError("--bits must be 32, 24 or 16, not '" + bitsText + "'");
             return kExitUsage;
         }
+    }
+
+    double glideMs = dsp::kDefaultGlideMs;
+    if (glideText.isNotEmpty())
+    {
+        glideMs = glideText.getDoubleValue();
+        if (!glideText.containsOnly("0123456789.") || glideMs < 0.0 || glideMs > dsp::kMaxGlideMs)
+        {
+            printError("--glide must be a time in ms from 0 to 1000, not '" + glideText + "'");
+            return kExitUsage;
+        }
+    }
+    // --switch T:FILE, times ascending.
+    struct Switch
+    {
+        double seconds = 0.0;
+        juce::String path;
+        dsp::ChainSpec chain;
+    };
+    std::vector<Switch> switches;
+    for (const auto& t : switchTexts)
+    {
+        const auto timeText = t.upToFirstOccurrenceOf(":", false, false).trim();
+        const auto path = t.fromFirstOccurrenceOf(":", false, false);
+        const double seconds = timeText.getDoubleValue();
+        if (!t.contains(":") || path.isEmpty() || timeText.isEmpty() ||
+            !timeText.containsOnly("0123456789.") || seconds < 0.0)
+        {
+            printError("--switch needs SECONDS:FILE (for example 2.5:next.json), not '" + t + "'");
+            return kExitUsage;
+        }
+        if (!switches.empty() && seconds <= switches.back().seconds)
+        {
+            printError("--switch times must increase: " + timeText + " s comes after " +
+                       juce::String(switches.back().seconds) + " s");
+            return kExitUsage;
+        }
+        switches.push_back({seconds, path, {}});
     }
 
     const auto cwd = juce::File::getCurrentWorkingDirectory();
@@ -126,6 +174,16 @@ int runRender(Args args)
         printError(chainResult.error);
         return kExitFailure;
     }
+    for (auto& sw : switches)
+    {
+        const auto r = readChainFile(cwd.getChildFile(sw.path));
+        if (!r.ok)
+        {
+            printError(r.error);
+            return kExitFailure;
+        }
+        sw.chain = r.chain;
+    }
 
     juce::String openError;
     auto input = AudioInput::open(inFile, openError);
@@ -149,24 +207,38 @@ int runRender(Args args)
     // Echo-cancellation stages: an exact inverse must be stable at this rate (refused before
     // anything is written); non-causal ones run backwards over the whole file first.
     bool hasNonCausal = false;
-    for (int i = 0; i < chainResult.chain.numStages; ++i)
+    for (std::size_t c = 0; c <= switches.size(); ++c)
     {
-        const auto& spec = chainResult.chain.stages[static_cast<std::size_t>(i)];
-        if (!spec.enabled || spec.type != dsp::StageType::echoCancel)
-            continue;
-        if (spec.nonCausal)
+        const dsp::ChainSpec& chainSpec = c == 0 ? chainResult.chain : switches[c - 1].chain;
+        const juce::String chainName =
+            juce::File(c == 0 ? chainPath : switches[c - 1].path).getFileName();
+        for (int i = 0; i < chainSpec.numStages; ++i)
         {
-            hasNonCausal = true;
-            continue;
-        }
-        if (spec.echo.method == dsp::EchoMethod::exact)
-        {
-            const auto stability = dsp::checkEchoStability(spec.echo, rate);
-            if (!stability.stable)
+            const auto& spec = chainSpec.stages[static_cast<std::size_t>(i)];
+            if (!spec.enabled || spec.type != dsp::StageType::echoCancel)
+                continue;
+            if (spec.nonCausal)
             {
-                printError(juce::File(chainPath).getFileName() + ": stage " + juce::String(i) +
-                           ": " + juce::String(stability.message));
-                return kExitFailure;
+                if (!switches.empty())
+                {
+                    // A backwards pass over the whole file has no place in a timeline.
+                    printError(chainName + ": stage " + juce::String(i) +
+                               ": a non_causal echo_cancel stage cannot be part of a --switch "
+                               "timeline (render that part on its own)");
+                    return kExitFailure;
+                }
+                hasNonCausal = true;
+                continue;
+            }
+            if (spec.echo.method == dsp::EchoMethod::exact)
+            {
+                const auto stability = dsp::checkEchoStability(spec.echo, rate);
+                if (!stability.stable)
+                {
+                    printError(chainName + ": stage " + juce::String(i) + ": " +
+                               juce::String(stability.message));
+                    return kExitFailure;
+                }
             }
         }
     }
@@ -241,7 +313,11 @@ int runRender(Args args)
     dsp::ChainProcessor chain;
     constexpr int kBlock = 4096;
     chain.prepare(rate, kBlock, numChannels);
+    chain.setGlideMs(glideMs);
     chain.setChain(chainResult.chain);
+    std::size_t nextSwitch = 0;
+    auto switchSample = [&](std::size_t k)
+    { return static_cast<juce::int64>(std::llround(switches[k].seconds * rate)); };
 
     juce::AudioBuffer<float> buffer(numChannels, kBlock);
     std::mt19937 rng(0x6b657266u); // fixed: the same input renders to the same bits
@@ -275,7 +351,22 @@ int runRender(Args args)
                        " is truncated or damaged: it ends before the length its header states");
             return kExitFailure;
         }
-        chain.process(buffer.getArrayOfWritePointers(), numChannels, n);
+        // The timeline: each switch is given to the chain at its own sample, where the
+        // click-free layer takes it (at its next update, within 32 samples).
+        for (int offset = 0; offset < n;)
+        {
+            while (nextSwitch < switches.size() && switchSample(nextSwitch) <= done + offset)
+                chain.setChain(switches[nextSwitch++].chain);
+            int piece = n - offset;
+            if (nextSwitch < switches.size())
+                piece = static_cast<int>(
+                    std::min<juce::int64>(piece, switchSample(nextSwitch) - (done + offset)));
+            float* pointers[dsp::ChainProcessor::kMaxChannels];
+            for (int ch = 0; ch < numChannels; ++ch)
+                pointers[ch] = buffer.getWritePointer(ch) + offset;
+            chain.process(pointers, numChannels, piece);
+            offset += piece;
+        }
         for (int ch = 0; ch < numChannels; ++ch)
         {
             float* x = buffer.getWritePointer(ch);

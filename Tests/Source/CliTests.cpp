@@ -1,6 +1,7 @@
 // The kerf command, run as a user would run it.
 #include "ChainFile.h"
 #include "Dsp/SpeechLikeSource.h"
+#include "Dsp/Splatter.h"
 #include "Response/SystemFunction.h"
 
 #include <catch2/catch.hpp>
@@ -448,4 +449,88 @@ TEST_CASE("cli: echo-estimate finds a reflection, writes a chain that cancels it
     CHECK(juce::JSON::parse(r.output)["reflections"].size() == 0);
     CHECK(runKerf({"echo-estimate", t["dry.wav"].getFullPathName(), "--max-reflections", "9"})
               .exitCode == 2);
+}
+
+TEST_CASE("cli: a --switch timeline changes chains without splatter", "[cli][smoothing]")
+{
+    // Issue bar (as for the processor, Tests/Dsp/SmoothingTests.cpp): a 100 Hz sine at
+    // -6 dBFS rendered with chain A, then B from 2.5 s and C from 4.0 s: <= -80 dBFS above
+    // 1 kHz in every 10 ms window. Comparator: the three plain renders spliced at the same
+    // times (instant switching), which must measure at least 30 dB worse. Before the first
+    // switch the timeline render equals the plain render of A sample for sample.
+    TempDir tmp;
+    const double rate = 48000.0;
+    const auto tone = kerf::test::testTone(rate, 6.0);
+    juce::AudioBuffer<float> in(1, static_cast<int>(tone.size()));
+    for (int i = 0; i < in.getNumSamples(); ++i)
+        in.setSample(0, i, static_cast<float>(tone[static_cast<std::size_t>(i)]));
+    writeWav(tmp["in.wav"], in, rate, 32);
+    // Invented settings: a boost with a high-pass, then a notch near the tone with a
+    // feedback comb, then a low shelf cut with an echo inverse.
+    tmp["a.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "peaking", "freq_hz": 110, "gain_db": 12, "q": 4},
+      {"type": "high_pass", "freq_hz": 40, "order": 4}]})");
+    tmp["b.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "notch", "freq_hz": 160, "q": 2},
+      {"type": "low_pass", "freq_hz": 3000, "order": 2, "q": 6},
+      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.9, "mix": 0.5}]})");
+    tmp["c.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "low_shelf", "freq_hz": 300, "gain_db": -15, "slope": 1},
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 12.7, "gain": 0.5}]}]})");
+
+    const auto timeline = runKerf(
+        {"render", tmp["in.wav"].getFullPathName(), tmp["t.wav"].getFullPathName(), "--chain",
+         tmp["a.json"].getFullPathName(), "--switch", "2.5:" + tmp["b.json"].getFullPathName(),
+         "--switch", "4.0:" + tmp["c.json"].getFullPathName()});
+    INFO(timeline.output);
+    REQUIRE(timeline.exitCode == 0);
+    std::vector<std::vector<double>> plain;
+    for (const char* c : {"a", "b", "c"})
+    {
+        const auto out = tmp.dir.getChildFile(juce::String(c) + ".wav");
+        const auto r =
+            runKerf({"render", tmp["in.wav"].getFullPathName(), out.getFullPathName(), "--chain",
+                     tmp.dir.getChildFile(juce::String(c) + ".json").getFullPathName()});
+        REQUIRE(r.exitCode == 0);
+        auto reader = openWav(out);
+        juce::AudioBuffer<float> b(1, static_cast<int>(reader->lengthInSamples));
+        reader->read(&b, 0, b.getNumSamples(), 0, true, true);
+        plain.emplace_back(b.getReadPointer(0), b.getReadPointer(0) + b.getNumSamples());
+    }
+    auto reader = openWav(tmp["t.wav"]);
+    REQUIRE(reader->lengthInSamples == in.getNumSamples());
+    juce::AudioBuffer<float> t(1, in.getNumSamples());
+    reader->read(&t, 0, t.getNumSamples(), 0, true, true);
+    std::vector<double> got(t.getReadPointer(0), t.getReadPointer(0) + t.getNumSamples());
+    const int s1 = static_cast<int>(2.5 * rate), s2 = static_cast<int>(4.0 * rate);
+    std::vector<double> spliced(got.size());
+    for (int i = 0; i < static_cast<int>(got.size()); ++i)
+        spliced[static_cast<std::size_t>(i)] = plain[i < s1   ? 0
+                                                     : i < s2 ? 1
+                                                              : 2][static_cast<std::size_t>(i)];
+    bool sameBefore = true;
+    for (int i = 0; i < s1; ++i)
+        sameBefore =
+            sameBefore && got[static_cast<std::size_t>(i)] == plain[0][static_cast<std::size_t>(i)];
+    CHECK(sameBefore);
+    const double kerf = kerf::test::worstSplatterDbfs(got, rate, 0.25);
+    const double instant = kerf::test::worstSplatterDbfs(spliced, rate, 0.25);
+    WARN("splatter, --switch timeline: Kerf " << kerf << " dBFS, spliced renders " << instant
+                                              << " dBFS");
+    CHECK(kerf <= -80.0);
+    CHECK(instant >= kerf + 30.0);
+    // The chains did change: around 3 s (chain B) the output differs from chain A's.
+    CHECK(std::abs(got[static_cast<std::size_t>(3 * 48000 + 17)] - plain[0][3 * 48000 + 17]) >
+          1e-3);
+
+    // Usage errors: a malformed switch and times out of order.
+    CHECK(runKerf({"render", tmp["in.wav"].getFullPathName(), tmp["x.wav"].getFullPathName(),
+                   "--chain", tmp["a.json"].getFullPathName(), "--switch", "later"})
+              .exitCode == 2);
+    CHECK(runKerf({"render", tmp["in.wav"].getFullPathName(), tmp["x.wav"].getFullPathName(),
+                   "--chain", tmp["a.json"].getFullPathName(), "--switch",
+                   "3:" + tmp["b.json"].getFullPathName(), "--switch",
+                   "2:" + tmp["c.json"].getFullPathName()})
+              .exitCode == 2);
+    CHECK_FALSE(tmp["x.wav"].exists());
 }
