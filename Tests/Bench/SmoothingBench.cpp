@@ -1,0 +1,107 @@
+// Cost of the click-free layer: 24 stereo peaking sections in 512-sample blocks, static
+// against every parameter gliding, measured in the same run (scripts/bench prints the
+// ratio of medians; issue bar: gliding <= 1.5x static). Never a timed unit test.
+#include "Chain.h"
+
+#include <benchmark/benchmark.h>
+
+#include <cmath>
+#include <random>
+#include <vector>
+
+namespace
+{
+using namespace kerf::dsp;
+constexpr double kRate = 48000.0;
+constexpr int kBlock = 512;
+constexpr int kSections = 24;
+
+/// 24 peaking sections spread over the band (synthetic settings); `phase` moves every
+/// frequency, gain and Q within glide range (0.4 octave, 4 dB, Q x1.3).
+ChainSpec chain(DesignMode mode, int phase)
+{
+    ChainSpec c;
+    const double m = phase % 2 ? 1.0 : -1.0;
+    for (int i = 0; i < kSections; ++i)
+    {
+        StageSpec s;
+        s.type = StageType::peaking;
+        s.freqHz = 40.0 * std::pow(400.0, i / double(kSections - 1)) * std::pow(2.0, 0.2 * m);
+        s.gainDb = (i % 2 ? -1.0 : 1.0) * (3.0 + i % 5) + 2.0 * m;
+        s.q = (0.7 + 0.3 * (i % 4)) * std::pow(1.3, 0.5 * m);
+        s.design = mode;
+        c.push(s);
+    }
+    return c;
+}
+
+void fillNoise(std::vector<double>& l, std::vector<double>& r)
+{
+    std::mt19937 rng(7);
+    std::uniform_real_distribution<double> u(-0.25, 0.25);
+    for (auto& v : l)
+        v = u(rng);
+    for (auto& v : r)
+        v = u(rng);
+}
+
+/// everyBlocks = 0: static; otherwise new targets for every parameter every that many
+/// blocks (1: the host automates everything every block; 2: about once per glide time,
+/// so every section is always gliding).
+void run(benchmark::State& state, DesignMode mode, int everyBlocks)
+{
+    ChainProcessor p;
+    p.prepare(kRate, kBlock, 2);
+    p.setChain(chain(mode, 0));
+    std::vector<double> l(kBlock), r(kBlock);
+    fillNoise(l, r);
+    double* ch[2] = {l.data(), r.data()};
+    p.process(ch, 2, kBlock); // running: later chains glide
+    int block = 0, phase = 0;
+    for (auto _ : state)
+    {
+        if (everyBlocks > 0 && block++ % everyBlocks == 0)
+            p.setChain(chain(mode, ++phase));
+        p.process(ch, 2, kBlock);
+        benchmark::DoNotOptimize(l[0]);
+        if (std::abs(l[0]) > 10.0)
+            fillNoise(l, r);
+    }
+    if (everyBlocks > 0 && !p.isMoving())
+        state.SkipWithError("the chain was not gliding");
+    state.SetItemsProcessed(state.iterations() * kBlock);
+}
+
+void BM_Static24Accurate(benchmark::State& s)
+{
+    run(s, DesignMode::accurate, 0);
+}
+void BM_Gliding24AccurateEvery2(benchmark::State& s)
+{
+    run(s, DesignMode::accurate, 2);
+}
+void BM_Gliding24AccurateEvery1(benchmark::State& s)
+{
+    run(s, DesignMode::accurate, 1);
+}
+void BM_Static24Bilinear(benchmark::State& s)
+{
+    run(s, DesignMode::bilinear, 0);
+}
+void BM_Gliding24BilinearEvery2(benchmark::State& s)
+{
+    run(s, DesignMode::bilinear, 2);
+}
+void BM_Gliding24BilinearEvery1(benchmark::State& s)
+{
+    run(s, DesignMode::bilinear, 1);
+}
+BENCHMARK(BM_Static24Accurate);
+BENCHMARK(BM_Gliding24AccurateEvery2);
+BENCHMARK(BM_Gliding24AccurateEvery1);
+BENCHMARK(BM_Static24Bilinear);
+BENCHMARK(BM_Gliding24BilinearEvery2);
+BENCHMARK(BM_Gliding24BilinearEvery1);
+} // namespace
+
+BENCHMARK_MAIN();
