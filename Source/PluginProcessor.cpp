@@ -121,14 +121,144 @@ void KerfProcessor::setCurrentProgram(int index)
     if (!juce::isPositiveAndBelow(index, presets.size() + 1))
         return;
     currentProgram = index;
-    importChain(index == 0 ? dsp::ChainSpec{} : presets[index - 1].chain);
+    importChain(index == 0 ? dsp::ChainSpec{} : presets[index - 1].chain,
+                "Load preset " + getProgramName(index));
 }
 
-juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain)
+juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain,
+                                        const juce::String& stepName)
 {
     juce::String error;
-    applyChainToParameters(newChain, parameters, error);
+    auto load = [&] { applyChainToParameters(newChain, parameters, error); };
+    // An edit on the message thread is an undo step; a host thread (some hosts change
+    // programs from one) changes the parameters without touching the history.
+    if (juce::MessageManager::existsAndIsCurrentThread())
+        edits.perform(stepName, load);
+    else
+        load();
     return error;
+}
+
+juce::String KerfProcessor::importChainFile(const juce::File& file)
+{
+    const auto parsed = readChainFile(file);
+    if (!parsed.ok)
+        return parsed.error;
+    return importChain(parsed.chain, "Import " + file.getFileName());
+}
+
+juce::String KerfProcessor::exportChainFile(const juce::File& file, const juce::String& name) const
+{
+    if (file.isDirectory())
+        return file.getFullPathName() + " is a folder";
+    juce::TemporaryFile temp(file);
+    if (!temp.getFile().replaceWithText(chainToJson(exportChain(), name)))
+        return "cannot write " + temp.getFile().getFullPathName();
+    if (!temp.overwriteTargetFileWithTemporary())
+        return "cannot write " + file.getFullPathName();
+    return {};
+}
+
+juce::String KerfProcessor::saveUserPreset(const juce::String& name) const
+{
+    return presetFolder.save(name, exportChain());
+}
+
+juce::String KerfProcessor::loadUserPreset(const juce::String& name)
+{
+    const auto parsed = presetFolder.load(name);
+    if (!parsed.ok)
+        return parsed.error;
+    return importChain(parsed.chain, "Load preset " + name);
+}
+
+juce::String KerfProcessor::deleteUserPreset(const juce::String& name)
+{
+    return presetFolder.remove(name);
+}
+
+bool KerfProcessor::slotHolds(CompareSlot slot) const noexcept
+{
+    return slots[static_cast<int>(slot)].has_value();
+}
+
+void KerfProcessor::storeSlot(CompareSlot slot)
+{
+    slots[static_cast<int>(slot)] = edits.capture();
+}
+
+bool KerfProcessor::recallSlot(CompareSlot slot)
+{
+    const auto& held = slots[static_cast<int>(slot)];
+    if (!held)
+        return false;
+    const auto before = active;
+    edits.perform(
+        juce::String("Recall ") + (slot == CompareSlot::a ? "A" : "B"), [&] { edits.apply(*held); },
+        [this, before] { active = before; }, [this, slot] { active = slot; });
+    active = slot;
+    return true;
+}
+
+void KerfProcessor::switchSlot()
+{
+    const auto other = active == CompareSlot::a ? CompareSlot::b : CompareSlot::a;
+    const auto beforeActive = active;
+    const auto beforeA = slots[0], beforeB = slots[1];
+    storeSlot(active);
+    if (!slots[static_cast<int>(other)])
+        storeSlot(other);
+    const auto afterA = slots[0], afterB = slots[1];
+    edits.perform(
+        juce::String("Switch to ") + (other == CompareSlot::a ? "A" : "B"),
+        [&] { edits.apply(*slots[static_cast<int>(other)]); },
+        [this, beforeActive, beforeA, beforeB]
+        {
+            active = beforeActive;
+            slots[0] = beforeA;
+            slots[1] = beforeB;
+        },
+        [this, other, afterA, afterB]
+        {
+            active = other;
+            slots[0] = afterA;
+            slots[1] = afterB;
+        });
+    active = other;
+}
+
+namespace
+{
+/// Every "on" parameter of a stage: the section slots, the combs, the echo stage.
+juce::StringArray stageSwitchIds()
+{
+    juce::StringArray list;
+    for (int i = 0; i < kNumSectionSlots; ++i)
+        list.add(ids::slotOn(i));
+    for (int c = 0; c < kNumCombSlots; ++c)
+        list.add(ids::comb(c, "on"));
+    list.add(ids::echoOn);
+    return list;
+}
+} // namespace
+
+void KerfProcessor::setAllFlat()
+{
+    edits.perform("All flat",
+                  [this]
+                  {
+                      for (const auto& id : stageSwitchIds())
+                          if (auto* p = parameters.getParameter(id); p->getValue() != 0.0f)
+                              p->setValueNotifyingHost(0.0f);
+                  });
+}
+
+bool KerfProcessor::isAllFlat() const
+{
+    for (const auto& id : stageSwitchIds())
+        if (parameters.getRawParameterValue(id)->load() > 0.5f)
+            return false;
+    return true;
 }
 
 double KerfProcessor::getTailLengthSeconds() const
@@ -181,6 +311,12 @@ void KerfProcessor::resetToDefaults()
 void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
 {
     stateProblem.clear();
+    // A restored session (or the defaults that replace a damaged one) starts a fresh edit
+    // history and empty comparison slots.
+    edits.clear();
+    slots[0].reset();
+    slots[1].reset();
+    active = CompareSlot::a;
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {

@@ -2,16 +2,27 @@
 // The Kerf AudioProcessor: adapts JUCE buffers and parameters to the Dsp core.
 #include "Chain.h"
 #include "EchoCapture.h"
+#include "EditHistory.h"
 #include "Parameters.h"
 #include "Stages/OutputProtection.h"
+#include "UserPresets.h"
 
 #include <juce_audio_processors/juce_audio_processors.h>
+
+#include <optional>
 
 namespace kerf
 {
 
 /// Version written into saved plugin state; restore code upgrades anything older.
 inline constexpr int kStateVersion = 1;
+
+/// The two comparison slots (A/B).
+enum class CompareSlot
+{
+    a,
+    b
+};
 
 /// Plugin, standalone and test host all run this processor.
 class KerfProcessor : public juce::AudioProcessor
@@ -49,10 +60,53 @@ public:
     void getStateInformation(juce::MemoryBlock& destData) override;
     void setStateInformation(const void* data, int sizeInBytes) override;
 
-    /// Loads a chain into the parameters (message thread). Returns an error text or "".
-    juce::String importChain(const dsp::ChainSpec& chain);
+    /// Loads a chain into the parameters (message thread) as one undo step called
+    /// `stepName`. Returns an error text or "" (on error nothing changes).
+    juce::String importChain(const dsp::ChainSpec& chain,
+                             const juce::String& stepName = "Load chain");
     /// The chain the current parameters describe.
     dsp::ChainSpec exportChain() const;
+    /// Reads a chain file and loads it (one undo step). Returns an error text or "".
+    juce::String importChainFile(const juce::File& file);
+    /// Writes the current chain as a chain file (written whole, then renamed into place).
+    /// Returns an error text or "".
+    juce::String exportChainFile(const juce::File& file, const juce::String& name = {}) const;
+
+    // ---- User presets: chain files under the XDG config folder (UserPresetFolder). --------
+    /// The folder and its listing.
+    const UserPresetFolder& userPresets() const noexcept { return presetFolder; }
+    /// Saves the current chain as a user preset (replacing one of the same name).
+    juce::String saveUserPreset(const juce::String& name) const;
+    /// Loads a user preset (one undo step). Returns an error text or "".
+    juce::String loadUserPreset(const juce::String& name);
+    /// Deletes a user preset. Returns an error text or "".
+    juce::String deleteUserPreset(const juce::String& name);
+
+    // ---- Two comparison slots (message thread). A slot holds every parameter's value. ----
+    /// The slot the current settings belong to (A at start).
+    CompareSlot activeSlot() const noexcept { return active; }
+    /// Whether a slot has been stored yet.
+    bool slotHolds(CompareSlot slot) const noexcept;
+    /// Keeps the current settings in `slot` (changes no sound; not an undo step).
+    void storeSlot(CompareSlot slot);
+    /// Loads `slot` and makes it active (one undo step). False when the slot is empty.
+    bool recallSlot(CompareSlot slot);
+    /// The A/B switch: keeps the current settings in the active slot, loads the other one
+    /// (an empty slot first receives a copy of the current settings) and makes it active.
+    /// One undo step; undo also returns the slots and the active one to where they were.
+    void switchSlot();
+
+    /// "All flat": switches off every section slot, both combs and the echo stage at once
+    /// (their settings stay, so undo or switching them on again brings them back); output
+    /// gain, protection and glide time are left alone. One undo step.
+    void setAllFlat();
+    /// Whether every section, comb and the echo stage is off.
+    bool isAllFlat() const;
+
+    // ---- Undo and redo of every edit (EditHistory) -----------------------------------------
+    EditHistory& history() noexcept { return edits; }
+    bool undo() { return edits.undo(); }
+    bool redo() { return edits.redo(); }
 
     juce::AudioProcessorValueTreeState& state() noexcept { return parameters; }
     /// Samples the output protection has changed since the last call.
@@ -78,6 +132,10 @@ private:
     double lastOutputGain = 1.0;
     int currentProgram = 0;
     juce::String stateProblem;
+    UserPresetFolder presetFolder;
+    EditHistory edits{*this};
+    std::optional<EditHistory::Values> slots[2];
+    CompareSlot active = CompareSlot::a;
 
     JUCE_DECLARE_NON_COPYABLE_WITH_LEAK_DETECTOR(KerfProcessor)
 };

@@ -104,9 +104,9 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
 {
     // Common practice (no heap allocation on the audio thread), while the click-free layer
     // works its hardest: every block size from 1 to 700, the glide time itself automated,
-    // parameters jumping (crossfades) and creeping (glides), factory programs loaded and two
-    // saved states swapped (an A/B comparison) between blocks, as a host's message thread
-    // would do them.
+    // parameters jumping (crossfades) and creeping (glides), factory programs loaded, two
+    // saved states swapped, the comparison slots switched, steps undone and redone and
+    // "all flat" pressed between blocks, as a host's or editor's message thread would.
     juce::ScopedJuceInitialiser_GUI init;
     kerf::KerfProcessor p;
     p.setPlayConfigDetails(2, 2, 48000.0, 700);
@@ -139,6 +139,14 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
         }
         else if (what < 0.15f)
             glide->setValueNotifyingHost(u(rng));
+        else if (what < 0.18f)
+            p.switchSlot(); // the A/B switch of the comparison slots
+        else if (what < 0.20f)
+            p.undo();
+        else if (what < 0.21f)
+            p.redo();
+        else if (what < 0.22f)
+            p.setAllFlat();
         else
             for (int k = 0; k < 4; ++k)
             {

@@ -1,0 +1,453 @@
+// What a user does with the processor between sounds: user presets in the XDG config folder,
+// chain-file import and export, the two comparison slots (A/B), undo and redo of every edit,
+// and "all flat".
+#include "ChainFile.h"
+#include "Dsp/Splatter.h"
+#include "FactoryPresets.h"
+#include "PluginProcessor.h"
+
+#include <catch2/catch.hpp>
+
+#include <cstdlib>
+#include <optional>
+#include <random>
+
+using namespace kerf;
+
+namespace
+{
+struct JuceGuard
+{
+    juce::ScopedJuceInitialiser_GUI init;
+};
+
+/// A temporary folder, removed afterwards.
+struct TempDir
+{
+    juce::File dir = juce::File::getSpecialLocation(juce::File::tempDirectory)
+                         .getNonexistentChildFile("kerf-session-test", "", false);
+    TempDir() { dir.createDirectory(); }
+    ~TempDir() { dir.deleteRecursively(); }
+};
+
+/// Sets an environment variable for the scope of a test, then puts the old value back.
+struct ScopedEnv
+{
+    std::string name;
+    std::optional<std::string> old;
+    ScopedEnv(const char* n, const char* value) : name(n)
+    {
+        if (const char* v = std::getenv(n))
+            old = v;
+        if (value != nullptr)
+            ::setenv(n, value, 1);
+        else
+            ::unsetenv(n);
+    }
+    ~ScopedEnv()
+    {
+        if (old)
+            ::setenv(name.c_str(), old->c_str(), 1);
+        else
+            ::unsetenv(name.c_str());
+    }
+};
+
+float valueOf(KerfProcessor& p, const juce::String& id)
+{
+    return p.state().getRawParameterValue(id)->load();
+}
+
+/// Sets a parameter the way a control does: a whole gesture (press, move, release).
+void edit(KerfProcessor& p, const juce::String& id, float plainValue)
+{
+    auto* param = p.state().getParameter(id);
+    param->beginChangeGesture();
+    param->setValueNotifyingHost(param->convertTo0to1(plainValue));
+    param->endChangeGesture();
+}
+
+/// Invented chains for the comparison tests.
+const char* const kChainA = R"({"format": "kerf-chain", "version": 1, "stages": [
+  {"type": "peaking", "freq_hz": 300, "gain_db": -9, "q": 1},
+  {"type": "high_shelf", "freq_hz": 5000, "gain_db": 3}]})";
+const char* const kChainB = R"({"format": "kerf-chain", "version": 1, "stages": [
+  {"type": "low_shelf", "freq_hz": 200, "gain_db": 4, "slope": 0.8},
+  {"type": "notch", "freq_hz": 160, "q": 2},
+  {"type": "comb", "delay_ms": 2.5, "gain": 0.5, "mix": 0.5},
+  {"type": "echo_cancel", "reflections": [{"delay_ms": 6, "gain": 0.3}]}]})";
+
+dsp::ChainSpec parse(const char* text)
+{
+    const auto r = parseChainJson(text);
+    REQUIRE(r.ok);
+    return r.chain;
+}
+
+bool sameChain(const dsp::ChainSpec& a, const dsp::ChainSpec& b)
+{
+    return chainToJson(a) == chainToJson(b);
+}
+} // namespace
+
+TEST_CASE("user presets: the folder follows XDG_CONFIG_HOME", "[plugin][presets]")
+{
+    // XDG Base Directory Specification 0.8: $XDG_CONFIG_HOME, or $HOME/.config when it is
+    // unset or empty; a relative path is invalid and is ignored.
+    JuceGuard guard;
+    const auto home = juce::File::getSpecialLocation(juce::File::userHomeDirectory);
+    {
+        ScopedEnv env("XDG_CONFIG_HOME", "/tmp/kerf-xdg-elsewhere");
+        CHECK(UserPresetFolder::defaultFolder() ==
+              juce::File("/tmp/kerf-xdg-elsewhere/kerf/presets"));
+        KerfProcessor p;
+        CHECK(p.userPresets().folder() == juce::File("/tmp/kerf-xdg-elsewhere/kerf/presets"));
+    }
+    {
+        ScopedEnv env("XDG_CONFIG_HOME", nullptr);
+        CHECK(UserPresetFolder::defaultFolder() == home.getChildFile(".config/kerf/presets"));
+    }
+    {
+        ScopedEnv env("XDG_CONFIG_HOME", "");
+        CHECK(UserPresetFolder::defaultFolder() == home.getChildFile(".config/kerf/presets"));
+    }
+    {
+        ScopedEnv env("XDG_CONFIG_HOME", "relative/config");
+        CHECK(UserPresetFolder::defaultFolder() == home.getChildFile(".config/kerf/presets"));
+    }
+}
+
+TEST_CASE("user presets: save, list, load and delete as chain files", "[plugin][presets]")
+{
+    // Common practice: a saved preset reloads to the same settings, in another session too;
+    // the file is an ordinary chain file (README.md, "Chain files") that kerf render reads.
+    JuceGuard guard;
+    TempDir tmp;
+    ScopedEnv env("XDG_CONFIG_HOME", tmp.dir.getFullPathName().toRawUTF8());
+    const auto folder = tmp.dir.getChildFile("kerf/presets");
+
+    KerfProcessor p;
+    CHECK(p.userPresets().list().isEmpty()); // no folder yet: an empty list, no error
+    REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    const auto chainB = p.exportChain();
+    CHECK(p.saveUserPreset("Vestry: organ hum/hiss").isEmpty());
+    REQUIRE(p.importChain(parse(kChainA)).isEmpty());
+    const auto chainA = p.exportChain();
+    CHECK(p.saveUserPreset("attic take").isEmpty());
+
+    // Two files directly in the folder (the '/' of a name never makes a sub-folder), each a
+    // chain file whose "name" is the preset's name.
+    const auto files = folder.findChildFiles(juce::File::findFiles, false, "*.json");
+    CHECK(files.size() == 2);
+    for (const auto& f : files)
+    {
+        const auto r = readChainFile(f);
+        INFO(f.getFullPathName() << ": " << r.error);
+        CHECK(r.ok);
+        CHECK((r.name == "Vestry: organ hum/hiss" || r.name == "attic take"));
+    }
+    // Listed by name, case-insensitively.
+    const auto listed = p.userPresets().list();
+    REQUIRE(listed.size() == 2);
+    CHECK(listed[0].name == "attic take");
+    CHECK(listed[1].name == "Vestry: organ hum/hiss");
+
+    // Another processor (another session) loads them.
+    KerfProcessor q;
+    CHECK(q.loadUserPreset("Vestry: organ hum/hiss").isEmpty());
+    CHECK(sameChain(q.exportChain(), chainB));
+    CHECK(q.loadUserPreset("attic take").isEmpty());
+    CHECK(sameChain(q.exportChain(), chainA));
+
+    // Saving under an existing name replaces that preset; names are checked.
+    CHECK(q.importChain(parse(kChainB)).isEmpty());
+    CHECK(q.saveUserPreset("attic take").isEmpty());
+    CHECK(q.userPresets().list().size() == 2);
+    CHECK(q.loadUserPreset("attic take").isEmpty());
+    CHECK(sameChain(q.exportChain(), chainB));
+    CHECK(q.saveUserPreset("").isNotEmpty());
+    CHECK(q.saveUserPreset(" padded ").isNotEmpty());
+    CHECK(q.saveUserPreset(juce::String::repeatedString("x", 101)).isNotEmpty());
+
+    // A file that is not a chain file is left out of the list, with a reason.
+    REQUIRE(folder.getChildFile("broken.json").replaceWithText("{\"format\": \"other\"}"));
+    juce::StringArray problems;
+    CHECK(q.userPresets().list(&problems).size() == 2);
+    REQUIRE(problems.size() == 1);
+    CHECK(problems[0].startsWith("broken.json"));
+
+    // Delete, then it is gone; loading or deleting a missing preset says so and changes
+    // nothing.
+    CHECK(q.deleteUserPreset("attic take").isEmpty());
+    CHECK_FALSE(q.userPresets().contains("attic take"));
+    CHECK(q.userPresets().list().size() == 1);
+    const auto before = q.exportChain();
+    CHECK(q.loadUserPreset("attic take").contains("no user preset"));
+    CHECK(q.deleteUserPreset("attic take").contains("no user preset"));
+    CHECK(sameChain(q.exportChain(), before));
+}
+
+TEST_CASE("chain files: export and import through files", "[plugin][presets]")
+{
+    // Common practice: an exported chain imports to the same settings; the exported file is
+    // read by the chain-file reader that kerf render uses; a bad file changes nothing.
+    JuceGuard guard;
+    TempDir tmp;
+    KerfProcessor p;
+    REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    const auto file = tmp.dir.getChildFile("out.json");
+    CHECK(p.exportChainFile(file, "exported").isEmpty());
+    const auto r = readChainFile(file);
+    REQUIRE(r.ok);
+    CHECK(r.name == "exported");
+    CHECK(sameChain(r.chain, p.exportChain()));
+
+    KerfProcessor q;
+    CHECK(q.importChainFile(file).isEmpty());
+    CHECK(sameChain(q.exportChain(), p.exportChain()));
+    REQUIRE(
+        tmp.dir.getChildFile("bad.json")
+            .replaceWithText(
+                R"({"format": "kerf-chain", "version": 1, "stages": [{"type": "peaking", "freq_hz": 5}]})"));
+    const auto error = q.importChainFile(tmp.dir.getChildFile("bad.json"));
+    CHECK(error.contains("freq_hz"));
+    CHECK(sameChain(q.exportChain(), p.exportChain()));
+    CHECK(q.exportChainFile(tmp.dir).isNotEmpty()); // a folder is not a file
+}
+
+TEST_CASE("undo: a parameter edit, a preset load and an A/B switch each undo and redo",
+          "[plugin][undo]")
+{
+    // Common practice for undo/redo: undo returns every parameter to exactly its value before
+    // the step, redo to exactly its value after; one gesture (press to release) is one step.
+    JuceGuard guard;
+    KerfProcessor p;
+    CHECK_FALSE(p.history().canUndo());
+
+    // A parameter edit: a drag through several values is one step.
+    const auto start = p.history().capture();
+    auto* gain = p.state().getParameter(ids::slotGain(3));
+    gain->beginChangeGesture();
+    for (float v : {1.0f, 2.5f, -4.0f})
+        gain->setValueNotifyingHost(gain->convertTo0to1(v));
+    gain->endChangeGesture();
+    CHECK(valueOf(p, ids::slotGain(3)) == -4.0f);
+    CHECK(p.history().undoName() == "Change Section 4 gain");
+    CHECK(p.undo());
+    CHECK(p.history().capture() == start);
+    CHECK_FALSE(p.history().canUndo());
+    CHECK(p.redo());
+    CHECK(valueOf(p, ids::slotGain(3)) == -4.0f);
+
+    // A preset load (a factory program) is one step.
+    const auto beforePreset = p.history().capture();
+    p.setCurrentProgram(3);
+    const auto afterPreset = p.history().capture();
+    REQUIRE(afterPreset != beforePreset);
+    CHECK(p.history().undoName() == "Load preset " + p.getProgramName(3));
+    CHECK(p.undo());
+    CHECK(p.history().capture() == beforePreset);
+    CHECK(p.redo());
+    CHECK(p.history().capture() == afterPreset);
+
+    // An A/B switch: B starts as a copy of A, is edited, then the switch back to A is undone
+    // and redone, slots and the active one included.
+    const auto aSettings = p.history().capture();
+    p.switchSlot();
+    CHECK(p.activeSlot() == CompareSlot::b);
+    CHECK(p.history().capture() == aSettings);
+    edit(p, ids::slotFreq(0), 440.0f);
+    edit(p, ids::outputGain, -6.0f);
+    const auto bSettings = p.history().capture();
+    p.switchSlot();
+    CHECK(p.activeSlot() == CompareSlot::a);
+    CHECK(p.history().capture() == aSettings);
+    CHECK(p.history().undoName() == "Switch to A");
+    CHECK(p.undo());
+    CHECK(p.activeSlot() == CompareSlot::b);
+    CHECK(p.history().capture() == bSettings);
+    CHECK(p.redo());
+    CHECK(p.activeSlot() == CompareSlot::a);
+    CHECK(p.history().capture() == aSettings);
+    // The slots are as the switch left them: switching again brings B's edits back.
+    p.switchSlot();
+    CHECK(p.history().capture() == bSettings);
+
+    // Undo walks back through every step, in order, to the very start.
+    int steps = 0;
+    while (p.undo())
+        ++steps;
+    // the drag, the preset, the first switch, two edits on B, switch to A, switch to B
+    CHECK(steps == 7);
+    CHECK(p.history().capture() == start);
+    CHECK(p.activeSlot() == CompareSlot::a);
+
+    // A new edit after undoing drops the steps that could have been redone.
+    CHECK(p.redo());
+    edit(p, ids::slotQ(1), 3.0f);
+    CHECK_FALSE(p.history().canRedo());
+
+    // A host restoring a session starts a fresh history with empty slots.
+    juce::MemoryBlock saved;
+    p.getStateInformation(saved);
+    p.setStateInformation(saved.getData(), static_cast<int>(saved.getSize()));
+    CHECK_FALSE(p.history().canUndo());
+    CHECK_FALSE(p.slotHolds(CompareSlot::a));
+    CHECK_FALSE(p.slotHolds(CompareSlot::b));
+}
+
+TEST_CASE("A/B: store and recall keep and bring back the whole state", "[plugin][undo]")
+{
+    // Common practice for comparison slots: recalling a slot restores every parameter to the
+    // value stored, output gain and protection included.
+    JuceGuard guard;
+    KerfProcessor p;
+    CHECK_FALSE(p.recallSlot(CompareSlot::b)); // empty
+    REQUIRE(p.importChain(parse(kChainA)).isEmpty());
+    edit(p, ids::outputGain, -3.5f);
+    p.storeSlot(CompareSlot::a);
+    const auto a = p.history().capture();
+    REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    edit(p, ids::protectCeiling, -6.0f);
+    p.storeSlot(CompareSlot::b);
+    const auto b = p.history().capture();
+    CHECK(p.recallSlot(CompareSlot::a));
+    CHECK(p.activeSlot() == CompareSlot::a);
+    CHECK(p.history().capture() == a);
+    CHECK(sameChain(p.exportChain(), parse(kChainA)));
+    CHECK(valueOf(p, ids::outputGain) == -3.5f);
+    CHECK(p.recallSlot(CompareSlot::b));
+    CHECK(p.history().capture() == b);
+    CHECK(valueOf(p, ids::protectCeiling) == -6.0f);
+    CHECK(p.undo()); // the recall is a step
+    CHECK(p.history().capture() == a);
+    CHECK(p.activeSlot() == CompareSlot::a);
+}
+
+TEST_CASE("A/B: switching while audio runs is click-free", "[plugin][undo][smoothing]")
+{
+    // Issue bar for changes while audio runs (as Tests/Dsp/SmoothingTests.cpp measures it):
+    // a 100 Hz sine at -6 dBFS; at most -80 dBFS above 1 kHz in every 10 ms window across the
+    // switches. Comparator: the outputs of two processors that each hold one slot, spliced at
+    // the same samples (instant switching), must measure at least 30 dB worse.
+    JuceGuard guard;
+    const double fs = 48000.0;
+    const int block = 480;
+    const auto tone = kerf::test::testTone(fs, 4.0);
+    const int n = static_cast<int>(tone.size());
+
+    auto setUp = [&](KerfProcessor& p, const char* chain)
+    {
+        REQUIRE(p.importChain(parse(chain)).isEmpty());
+        // The output ceiling is a non-linear stage of its own: off here (the levels stay
+        // below it anyway), so that only the switch is measured.
+        edit(p, ids::protectOn, 0.0f);
+        p.setPlayConfigDetails(1, 1, fs, block);
+        p.prepareToPlay(fs, block);
+    };
+    KerfProcessor ab, onlyA, onlyB;
+    setUp(ab, kChainA);
+    ab.switchSlot(); // B = a copy of A, now edited into chain B
+    REQUIRE(ab.importChain(parse(kChainB)).isEmpty());
+    ab.switchSlot(); // back to A
+    REQUIRE(ab.activeSlot() == CompareSlot::a);
+    setUp(onlyA, kChainA);
+    setUp(onlyB, kChainB);
+
+    const int switchAt[] = {static_cast<int>(1.5 * fs), static_cast<int>(2.5 * fs)};
+    std::vector<double> got, a, b;
+    juce::AudioBuffer<float> buf(1, block);
+    juce::MidiBuffer midi;
+    auto run = [&](KerfProcessor& p, int start, std::vector<double>& out)
+    {
+        for (int i = 0; i < block; ++i)
+            buf.setSample(0, i, static_cast<float>(tone[static_cast<std::size_t>(start + i)]));
+        p.processBlock(buf, midi);
+        for (int i = 0; i < block; ++i)
+            out.push_back(buf.getSample(0, i));
+    };
+    for (int start = 0; start + block <= n; start += block)
+    {
+        if (start == switchAt[0] || start == switchAt[1])
+            ab.switchSlot();
+        run(ab, start, got);
+        run(onlyA, start, a);
+        run(onlyB, start, b);
+    }
+    std::vector<double> spliced(got.size());
+    for (std::size_t i = 0; i < got.size(); ++i)
+    {
+        const bool inB = static_cast<int>(i) >= switchAt[0] && static_cast<int>(i) < switchAt[1];
+        spliced[i] = inB ? b[i] : a[i];
+    }
+    const double kerfDb = kerf::test::worstSplatterDbfs(got, fs, 0.25);
+    const double instantDb = kerf::test::worstSplatterDbfs(spliced, fs, 0.25);
+    WARN("splatter, A/B switches: Kerf " << kerfDb << " dBFS, instant " << instantDb << " dBFS");
+    CHECK(kerfDb <= -80.0);
+    CHECK(instantDb >= kerfDb + 30.0);
+    // The switch did take effect: 0.4 s after each switch the output is the other slot's
+    // (the glide and crossfade are over; memories of both chains have long decayed at
+    // 100 Hz: the slowest stage, the 6 ms echo inverse at gain 0.3, falls 60 dB in 35 ms).
+    double errB = 0.0, errA = 0.0;
+    for (int i = switchAt[0] + static_cast<int>(0.4 * fs); i < switchAt[1]; ++i)
+        errB = std::max(
+            errB, std::abs(got[static_cast<std::size_t>(i)] - b[static_cast<std::size_t>(i)]));
+    for (int i = switchAt[1] + static_cast<int>(0.4 * fs); i < static_cast<int>(got.size()); ++i)
+        errA = std::max(
+            errA, std::abs(got[static_cast<std::size_t>(i)] - a[static_cast<std::size_t>(i)]));
+    INFO("max difference from slot B's output " << errB << ", from slot A's " << errA);
+    CHECK(errB < 1e-6);
+    CHECK(errA < 1e-6);
+}
+
+TEST_CASE("all flat: every stage off at once, settings kept, one undo step", "[plugin][undo]")
+{
+    // Live use (README.md, "In the plugin and the standalone app"): one control takes every
+    // stage out, the signal passes unchanged once the crossfade is over, output gain and the
+    // protection stay as they were, and undo brings the stages back.
+    JuceGuard guard;
+    KerfProcessor p;
+    REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    edit(p, ids::outputGain, 0.0f);
+    const auto before = p.history().capture();
+    const auto chainBefore = p.exportChain();
+    CHECK_FALSE(p.isAllFlat());
+
+    const double fs = 48000.0;
+    const int block = 256;
+    p.setPlayConfigDetails(2, 2, fs, block);
+    p.prepareToPlay(fs, block);
+    p.setAllFlat();
+    CHECK(p.isAllFlat());
+    CHECK(p.exportChain().numStages == 0);
+    CHECK(p.history().undoName() == "All flat");
+    CHECK(valueOf(p, ids::protectOn) == 1.0f);
+
+    // After the crossfade (default glide 20 ms; 0.5 s here) the output equals the input.
+    juce::AudioBuffer<float> buf(2, block), in(2, block);
+    juce::MidiBuffer midi;
+    std::mt19937 rng(77u);
+    std::uniform_real_distribution<float> u(-0.2f, 0.2f);
+    double diffLate = 0.0;
+    for (int k = 0; k < static_cast<int>(fs) / block; ++k)
+    {
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < block; ++i)
+                in.setSample(ch, i, u(rng));
+        buf.makeCopyOf(in);
+        p.processBlock(buf, midi);
+        if (k * block > fs / 2)
+            for (int ch = 0; ch < 2; ++ch)
+                for (int i = 0; i < block; ++i)
+                    diffLate = std::max(
+                        diffLate, std::abs(double(buf.getSample(ch, i)) - in.getSample(ch, i)));
+    }
+    CHECK(diffLate == 0.0);
+
+    // Undo: every stage back with its settings; redo: flat again.
+    CHECK(p.undo());
+    CHECK(p.history().capture() == before);
+    CHECK(sameChain(p.exportChain(), chainBefore));
+    CHECK(p.redo());
+    CHECK(p.isAllFlat());
+}
