@@ -2,6 +2,9 @@
 // audio input live on first start. Kerf is an effect: muting the input by default (JUCE's
 // choice, aimed at instruments and feedback loops) would leave a live rig silent. The
 // output protection stays on by default, and the user's own mute choice is remembered.
+// An "All flat" button sits in the title bar beside Options, always in reach on a live rig.
+#include "PluginProcessor.h"
+
 #include <juce_audio_utils/juce_audio_utils.h>
 
 #if JucePlugin_Build_Standalone && JUCE_USE_CUSTOM_PLUGIN_STANDALONE_APP
@@ -10,6 +13,38 @@
 
 namespace kerf
 {
+
+/// JUCE's standalone window with an "All flat" button (Ctrl+0) in its title bar: every
+/// section, comb and echo stage off at once (KerfProcessor::setAllFlat; one undo step).
+class StandaloneWindow : public juce::StandaloneFilterWindow
+{
+public:
+    StandaloneWindow(const juce::String& title, juce::Colour background,
+                     juce::PropertySet* settings)
+        : juce::StandaloneFilterWindow(title, background, settings, false)
+    {
+        flatButton.setTooltip("Switch every section, comb and echo stage off (Ctrl+0); "
+                              "output gain and protection stay as they are");
+        flatButton.addShortcut(juce::KeyPress('0', juce::ModifierKeys::commandModifier, 0));
+        flatButton.onClick = [this]
+        {
+            if (auto* kerfProcessor = dynamic_cast<KerfProcessor*>(getAudioProcessor()))
+                kerfProcessor->setAllFlat();
+        };
+        juce::Component::addAndMakeVisible(flatButton);
+        resized();
+    }
+
+    void resized() override
+    {
+        juce::StandaloneFilterWindow::resized();
+        // Beside JUCE's Options button (8, 6, 60 wide).
+        flatButton.setBounds(72, 6, 70, juce::jmax(0, getTitleBarHeight() - 8));
+    }
+
+private:
+    juce::TextButton flatButton{"All flat"};
+};
 
 /// The JUCE standalone app, with the input unmuted unless the user muted it before.
 class StandaloneApp : public juce::JUCEApplication
@@ -33,11 +68,11 @@ public:
     {
         auto* settings = appProperties.getUserSettings();
         const bool firstStart = !settings->containsKey("shouldMuteInput");
-        window = std::make_unique<juce::StandaloneFilterWindow>(
+        window = std::make_unique<StandaloneWindow>(
             getApplicationName(),
             juce::LookAndFeel::getDefaultLookAndFeel().findColour(
                 juce::ResizableWindow::backgroundColourId),
-            settings, false);
+            settings);
         if (firstStart)
             window->getPluginHolder()->getMuteInputValue().setValue(false);
         window->setVisible(true);
@@ -58,7 +93,7 @@ public:
 
 private:
     juce::ApplicationProperties appProperties;
-    std::unique_ptr<juce::StandaloneFilterWindow> window;
+    std::unique_ptr<StandaloneWindow> window;
 };
 
 } // namespace kerf
