@@ -206,13 +206,21 @@ bool stageAllowed(const ChainSpec& chain, int i, int maxEcho, int maxComb) noexc
     return before < (t == StageType::comb ? maxComb : maxEcho);
 }
 
-/// Folded stereo-kernel values of a section: a1, a2, g, c0, c1, c2 with
+/// Folded kernel values of a section: a1, a2, g, c0, c1, c2 with
 /// y = mHigh (v0 - k v1 - v2) + mBand v1 + mLow v2 = c0 v0 + c1 v1 + c2 v2.
 void foldCoeffs(const SvfCoeffs& c, double* out) noexcept
 {
     const double folded[6] = {c.a1, c.a2, c.g, c.mHigh, c.mBand - c.mHigh * c.k, c.mLow - c.mHigh};
     for (int m = 0; m < 6; ++m)
-        out[2 * m] = out[2 * m + 1] = folded[m];
+        out[m] = folded[m];
+}
+
+/// The stereo kernel's pair form of folded values: each value in both lanes.
+template <typename Pair> void spreadPairs(const double* v, Pair& p) noexcept
+{
+    double* lanes[6] = {p.a1, p.a2, p.g, p.c0, p.c1, p.c2};
+    for (int m = 0; m < 6; ++m)
+        lanes[m][0] = lanes[m][1] = v[m];
 }
 } // namespace
 
@@ -220,10 +228,28 @@ void ChainProcessor::setSectionCoeffs(int idx, const SvfCoeffs& c) noexcept
 {
     const auto i = static_cast<std::size_t>(idx);
     coeffs[i] = c;
-    foldCoeffs(c, pairCoeffs[i].a1);
-    knotCoeffs[i] = pairCoeffs[i];
-    pairDelta[i] = PairCoeffs{};
+    rampKnot[i] = RampCoeffs{};
+    foldCoeffs(c, rampKnot[i].v);
+    spreadPairs(rampKnot[i].v, pairCoeffs[i]);
+    rampBase[i] = rampKnot[i];
+    rampStep[i] = RampCoeffs{};
     ramping[i] = false;
+}
+
+ChainProcessor::RampCoeffs ChainProcessor::rampValuesNow(int idx) const noexcept
+{
+    const auto i = static_cast<std::size_t>(idx);
+    if (!ramping[i])
+        return rampKnot[i];
+    // The same additions, in the same order, as the kernels make sample by sample.
+    if (rampCurClock[i] == clock)
+        return rampCur[i];
+    RampCoeffs c = rampBase[i];
+    const long long steps = clock - rampStart[i];
+    for (long long n = 0; n < steps; ++n)
+        for (int m = 0; m < 6; ++m)
+            c.v[m] += rampStep[i].v[m];
+    return c;
 }
 
 ChainProcessor::Voice ChainProcessor::makeVoice(int stage, const StageSpec& spec, int bank,
@@ -371,11 +397,14 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
     const int len = transitionSamples(glideMs_, sampleRate);
     for (int j = 0; j < designed.count; ++j)
     {
-        Glide& g = glides[static_cast<std::size_t>(st.live.first + j)];
+        const int idx = st.live.first + j;
+        Glide& g = glides[static_cast<std::size_t>(idx)];
         const SvfCoeffs target = toSvf(designed.sections[static_cast<std::size_t>(j)]);
-        g.from = g.on ? g.cur : toNatural(coeffs[static_cast<std::size_t>(st.live.first + j)]);
-        g.cur = g.from;
-        g.to = toNatural(target);
+        // From where the last update left the section (an update is always a knot).
+        const SvfNatural from =
+            g.on ? g.path.at(g.s) : toNatural(coeffs[static_cast<std::size_t>(idx)]);
+        g.path = GlidePath(from, toNatural(target));
+        g.s = 0.0;
         g.target = target;
         g.pos = 0;
         g.len = len;
@@ -488,22 +517,20 @@ void ChainProcessor::update() noexcept
                 SvfCoeffs end = g.target;
                 if (g.pos < g.len)
                 {
-                    g.cur = blend(
-                        g.from, g.to,
-                        transitionCurve(static_cast<double>(g.pos) / static_cast<double>(g.len)));
-                    end = fromNatural(g.cur);
+                    g.s = transitionCurve(static_cast<double>(g.pos) / static_cast<double>(g.len));
+                    end = g.path.coeffsAt(g.s);
                 }
                 else
-                    g.cur = g.to;
+                    g.s = 1.0;
                 // Per-sample linear steps from the last update's exact values to this one's.
                 coeffs[u] = end;
-                pairCoeffs[u] = knotCoeffs[u];
-                foldCoeffs(end, knotCoeffs[u].a1);
-                const double* a = pairCoeffs[u].a1;
-                const double* b = knotCoeffs[u].a1;
-                double* d = pairDelta[u].a1;
-                for (int m = 0; m < 12; ++m)
-                    d[m] = (b[m] - a[m]) / K;
+                rampBase[u] = rampKnot[u];
+                foldCoeffs(end, rampKnot[u].v);
+                for (int m = 0; m < 6; ++m)
+                    rampStep[u].v[m] = (rampKnot[u].v[m] - rampBase[u].v[m]) / K;
+                rampStart[u] = clock;
+                rampCur[u] = rampBase[u];
+                rampCurClock[u] = clock;
                 ramping[u] = true;
             }
         if (st.fading || st.queued || gliding)
@@ -541,9 +568,10 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
         {
             // Gliding: the folded form with its coefficients stepping linearly per sample
             // from the last update's values (the stereo kernel's arithmetic, one lane).
-            const double* c = pairCoeffs[idx].a1;
-            const double* d = pairDelta[idx].a1;
-            double a1 = c[0], a2 = c[2], g = c[4], c0 = c[6], c1 = c[8], c2 = c[10];
+            const RampCoeffs now = rampValuesNow(j);
+            const double* c = now.v;
+            const double* d = rampStep[idx].v;
+            double a1 = c[0], a2 = c[1], g = c[2], c0 = c[3], c1 = c[4], c2 = c[5];
             double ic1 = s.ic1eq, ic2 = s.ic2eq;
             for (int n = 0; n < len; ++n)
             {
@@ -554,11 +582,11 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
                 ic2 = 2.0 * v2 - ic2;
                 x[n] = c2 * v2 + (c1 * v1 + c0 * v0);
                 a1 += d[0];
-                a2 += d[2];
-                g += d[4];
-                c0 += d[6];
-                c1 += d[8];
-                c2 += d[10];
+                a2 += d[1];
+                g += d[2];
+                c0 += d[3];
+                c1 += d[4];
+                c2 += d[5];
             }
             s = {ic1, ic2};
         }
@@ -578,33 +606,44 @@ namespace
 /// gliding the per-sample step of each coefficient.
 struct StretchSection
 {
-    double* coeffs;      // a1, a2, g, c0, c1, c2 pairs
+    double* coeffs;      // static: a1, a2, g, c0, c1, c2 as pairs; gliding: once each (8)
     double* state;       // ic1, ic2 pairs
-    const double* delta; // the same six pairs: added after every sample while gliding
+    const double* delta; // gliding: the per-sample steps of the coefficients (8)
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
 /// v1 = a1 ic1 + a2 (v0 - ic2), v2 = ic2 + g v1, ic1 <- 2 v1 - ic1, ic2 <- 2 v2 - ic2,
-/// y = c0 v0 + c1 v1 + c2 v2. `Fma` selects fused multiply-adds.
+/// y = c0 v0 + c1 v1 + c2 v2. COEF(m) gives coefficient m in both lanes.
 #if defined(__SSE2__)
-#define KERF_SECTION_STEP(MUL_ADD)                                                                 \
+#define KERF_SECTION_STEP(MUL_ADD, COEF)                                                           \
     {                                                                                              \
         const __m128d ic1 = _mm_load_pd(st), ic2 = _mm_load_pd(st + 2);                            \
         const __m128d v3 = _mm_sub_pd(v, ic2);                                                     \
-        const __m128d v1 = MUL_ADD(_mm_load_pd(c + 2), v3, _mm_mul_pd(_mm_load_pd(c), ic1));       \
-        const __m128d v2 = MUL_ADD(_mm_load_pd(c + 4), v1, ic2);                                   \
+        const __m128d v1 = MUL_ADD(COEF(1), v3, _mm_mul_pd(COEF(0), ic1));                         \
+        const __m128d v2 = MUL_ADD(COEF(2), v1, ic2);                                              \
         _mm_store_pd(st, _mm_sub_pd(_mm_add_pd(v1, v1), ic1));                                     \
         _mm_store_pd(st + 2, _mm_sub_pd(_mm_add_pd(v2, v2), ic2));                                 \
-        v = MUL_ADD(_mm_load_pd(c + 10), v2,                                                       \
-                    MUL_ADD(_mm_load_pd(c + 8), v1, _mm_mul_pd(_mm_load_pd(c + 6), v)));           \
+        v = MUL_ADD(COEF(5), v2, MUL_ADD(COEF(4), v1, _mm_mul_pd(COEF(3), v)));                    \
     }
+// Static sections keep each coefficient in both lanes; gliding ones keep it once and load
+// it into both lanes (movddup where the CPU has it).
+#define KERF_PAIR_COEF(m) _mm_load_pd(c + 2 * (m))
+#define KERF_ONCE_COEF_SSE2(m) _mm_load1_pd(c + (m))
+#define KERF_ONCE_COEF_SSE3(m) _mm_loaddup_pd(c + (m))
 
-/// The glide step: every coefficient pair moves by its per-sample step.
-#define KERF_RAMP_STEP                                                                             \
+/// The glide step: every coefficient moves by its per-sample step.
+#define KERF_RAMP_STEP_SSE2                                                                        \
     {                                                                                              \
         const double* dl = sections[j].delta;                                                      \
-        for (int m = 0; m < 12; m += 2)                                                            \
-            _mm_store_pd(c + m, _mm_add_pd(_mm_load_pd(c + m), _mm_load_pd(dl + m)));              \
+        _mm_store_pd(c, _mm_add_pd(_mm_load_pd(c), _mm_load_pd(dl)));                              \
+        _mm_store_pd(c + 2, _mm_add_pd(_mm_load_pd(c + 2), _mm_load_pd(dl + 2)));                  \
+        _mm_store_pd(c + 4, _mm_add_pd(_mm_load_pd(c + 4), _mm_load_pd(dl + 4)));                  \
+    }
+#define KERF_RAMP_STEP_AVX                                                                         \
+    {                                                                                              \
+        const double* dl = sections[j].delta;                                                      \
+        _mm256_store_pd(c, _mm256_add_pd(_mm256_load_pd(c), _mm256_load_pd(dl)));                  \
+        _mm_store_pd(c + 4, _mm_add_pd(_mm_load_pd(c + 4), _mm_load_pd(dl + 4)));                  \
     }
 #define KERF_NO_RAMP_STEP
 
@@ -618,7 +657,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 /// are independent, so the processor overlaps them instead of waiting on each section's
 /// recursion in turn; the fill and drain at the block's ends keep the result exact, with
 /// no added latency. `carry[j]` holds the sample waiting to enter section j.
-#define KERF_STRETCH_BODY(MUL_ADD, RAMP)                                                           \
+#define KERF_STRETCH_BODY(MUL_ADD, COEF, RAMP)                                                     \
     const int last = count - 1;                                                                    \
     for (int t = 0; t < len + last; ++t)                                                           \
     {                                                                                              \
@@ -630,7 +669,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
             __m128d v = j == 0 ? _mm_set_pd(r[n], l[n]) : carry[j];                                \
             double* c = sections[j].coeffs;                                                        \
             double* st = sections[j].state;                                                        \
-            KERF_SECTION_STEP(MUL_ADD)                                                             \
+            KERF_SECTION_STEP(MUL_ADD, COEF)                                                       \
             RAMP if (j == last)                                                                    \
             {                                                                                      \
                 l[n] = _mm_cvtsd_f64(v);                                                           \
@@ -643,34 +682,40 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 void stretchKernel(const StretchSection* sections, int count, double* l, double* r, int len,
                    __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(mulAdd, KERF_NO_RAMP_STEP)
+    KERF_STRETCH_BODY(mulAdd, KERF_PAIR_COEF, KERF_NO_RAMP_STEP)
 }
 
 /// The kernel while sections glide (coefficients step per sample).
 void stretchKernelRamp(const StretchSection* sections, int count, double* l, double* r, int len,
                        __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(mulAdd, KERF_RAMP_STEP)
+    KERF_STRETCH_BODY(mulAdd, KERF_ONCE_COEF_SSE2, KERF_RAMP_STEP_SSE2)
 }
 
 #if defined(__x86_64__) && defined(__GNUC__)
 /// The same kernels with fused multiply-adds, for processors that have them (chosen once at
-/// run time). FMA rounds once where the plain kernel rounds twice, so results differ in the
-/// last bits between machines, never within one.
-__attribute__((target("fma"))) void stretchKernelFma(const StretchSection* sections, int count,
-                                                     double* l, double* r, int len,
-                                                     __m128d* carry) noexcept
+/// run time; every such processor also has AVX, which the glide step uses). FMA rounds once
+/// where the plain kernel rounds twice, so results differ in the last bits between
+/// machines, never within one.
+__attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* sections, int count,
+                                                         double* l, double* r, int len,
+                                                         __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_NO_RAMP_STEP)
+    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_PAIR_COEF, KERF_NO_RAMP_STEP)
 }
 
-__attribute__((target("fma"))) void
-stretchKernelRampFma(const StretchSection* sections, int count, double* l, double* r, int len,
-                     __m128d* carry) noexcept {KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_RAMP_STEP)}
+__attribute__((target("avx,fma"))) void stretchKernelRampFma(const StretchSection* sections,
+                                                             int count, double* l, double* r,
+                                                             int len, __m128d* carry) noexcept {
+    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_ONCE_COEF_SSE3, KERF_RAMP_STEP_AVX)}
 #endif
 #undef KERF_STRETCH_BODY
 #undef KERF_SECTION_STEP
-#undef KERF_RAMP_STEP
+#undef KERF_PAIR_COEF
+#undef KERF_ONCE_COEF_SSE2
+#undef KERF_ONCE_COEF_SSE3
+#undef KERF_RAMP_STEP_SSE2
+#undef KERF_RAMP_STEP_AVX
 #undef KERF_NO_RAMP_STEP
 #else
 #error "Kerf's processing kernels need SSE2 (x86-64); add a portable kernel for other CPUs."
@@ -681,7 +726,7 @@ std::atomic<bool> fmaAllowed{true};
 bool hasFma() noexcept
 {
 #if defined(__x86_64__) && defined(__GNUC__)
-    static const bool fma = __builtin_cpu_supports("fma");
+    static const bool fma = __builtin_cpu_supports("fma") && __builtin_cpu_supports("avx");
     return fma && fmaAllowed.load(std::memory_order_relaxed);
 #else
     return false;
@@ -709,12 +754,37 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const auto u = static_cast<std::size_t>(j);
             list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1,
-                                                       pairDelta[u].a1};
+                                                       rampStep[u].v};
             ramp = ramp || ramping[u];
         }
     }
     if (count == 0)
         return;
+    // Gliding: the kernel steps each gliding section's running values in place (from where
+    // its ramp is at this sample); sections holding still take their values with zero steps.
+    if (ramp)
+    {
+        int k = 0;
+        for (int s = first; s < end; ++s)
+        {
+            const Voice& v = stages[static_cast<std::size_t>(s)].live;
+            for (int j = v.first; j < v.first + v.count; ++j, ++k)
+            {
+                const auto u = static_cast<std::size_t>(j);
+                if (!ramping[u])
+                {
+                    list[static_cast<std::size_t>(k)].coeffs = rampKnot[u].v;
+                    continue;
+                }
+                if (rampCurClock[u] != clock)
+                {
+                    rampCur[u] = rampValuesNow(j);
+                }
+                rampCurClock[u] = clock + len;
+                list[static_cast<std::size_t>(k)].coeffs = rampCur[u].v;
+            }
+        }
+    }
     __m128d carry[kMaxSections];
 #if defined(__x86_64__) && defined(__GNUC__)
     if (hasFma())

@@ -204,7 +204,8 @@ private:
     {
         bool on = false;
         int pos = 0, len = 0;
-        SvfNatural from, to, cur;
+        GlidePath path;
+        double s = 0.0; // where along the path the last update left the section
         SvfCoeffs target;
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
@@ -212,6 +213,12 @@ private:
     struct alignas(16) PairCoeffs
     {
         double a1[2], a2[2], g[2], c0[2], c1[2], c2[2];
+    };
+    /// A section's folded values once each (a1, a2, g, c0, c1, c2, then two zeros): the
+    /// form glides use, so that a per-sample step costs two vector additions.
+    struct alignas(32) RampCoeffs
+    {
+        double v[8] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
     };
     /// Integrator memories of channels 0 and 1 side by side (lane = channel).
     struct alignas(16) PairState
@@ -249,9 +256,19 @@ private:
     std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSectionSlots> coeffs{};
     std::array<PairCoeffs, kMaxSectionSlots> pairCoeffs{};
-    std::array<PairCoeffs, kMaxSectionSlots> pairDelta{};  // per-sample ramp while gliding
-    std::array<PairCoeffs, kMaxSectionSlots> knotCoeffs{}; // exact values at the last update
+    // While a section glides its values step linearly, sample by sample, from rampBase (exact
+    // values at the last update, clock rampStart) to rampKnot (exact values at the next).
+    // Not gliding: rampKnot holds its values and rampStep is zero. Any piece of the block
+    // replays the steps from rampBase, so the output does not depend on how blocks split.
+    std::array<RampCoeffs, kMaxSectionSlots> rampBase{};
+    std::array<RampCoeffs, kMaxSectionSlots> rampStep{};
+    std::array<RampCoeffs, kMaxSectionSlots> rampKnot{};
+    std::array<long long, kMaxSectionSlots> rampStart{};
     std::array<bool, kMaxSectionSlots> ramping{};
+    // The stereo kernel's running values of a gliding section and the clock they hold for.
+    std::array<RampCoeffs, kMaxSectionSlots> rampCur{};
+    std::array<long long, kMaxSectionSlots> rampCurClock{};
+    RampCoeffs rampValuesNow(int idx) const noexcept; // a section's values at `clock`
     std::array<Glide, kMaxSectionSlots> glides{};
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7

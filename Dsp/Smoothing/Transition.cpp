@@ -65,6 +65,57 @@ SvfCoeffs fromNatural(const SvfNatural& n) noexcept
     return c;
 }
 
+namespace
+{
+bool sameSign(double a, double b) noexcept
+{
+    return (a > 0.0 && b > 0.0) || (a < 0.0 && b < 0.0);
+}
+} // namespace
+
+GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept : from(a), to(b)
+{
+    logHigh = sameSign(a.mHigh, b.mHigh);
+    if (logHigh)
+    {
+        logHigh0 = std::log(std::abs(a.mHigh));
+        logHighStep = std::log(std::abs(b.mHigh)) - logHigh0;
+        signHigh = a.mHigh > 0.0 ? 1.0 : -1.0;
+    }
+    logLow = sameSign(a.mLow, b.mLow);
+    if (logLow)
+    {
+        logLow0 = std::log(std::abs(a.mLow));
+        logLowStep = std::log(std::abs(b.mLow)) - logLow0;
+        signLow = a.mLow > 0.0 ? 1.0 : -1.0;
+    }
+}
+
+SvfNatural GlidePath::at(double s) const noexcept
+{
+    if (s <= 0.0)
+        return from;
+    if (s >= 1.0)
+        return to;
+    SvfNatural n;
+    n.logG = from.logG + s * (to.logG - from.logG);
+    n.logK = from.logK + s * (to.logK - from.logK);
+    // A weight that does not move (a peaking section's, 1 at both ends) costs nothing.
+    n.mHigh = from.mHigh == to.mHigh ? from.mHigh
+              : logHigh              ? signHigh * std::exp(logHigh0 + s * logHighStep)
+                                     : from.mHigh + s * (to.mHigh - from.mHigh);
+    n.mBand = from.mBand + s * (to.mBand - from.mBand);
+    n.mLow = from.mLow == to.mLow ? from.mLow
+             : logLow             ? signLow * std::exp(logLow0 + s * logLowStep)
+                                  : from.mLow + s * (to.mLow - from.mLow);
+    return n;
+}
+
+SvfCoeffs GlidePath::coeffsAt(double s) const noexcept
+{
+    return fromNatural(at(s));
+}
+
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
 {
     if (!a.enabled || !b.enabled || !isSectionType(a.type) || a.type != b.type ||

@@ -71,6 +71,24 @@ SvfNatural blend(const SvfNatural& a, const SvfNatural& b, double s) noexcept;
 /// Processing coefficients of a natural point.
 SvfCoeffs fromNatural(const SvfNatural& n) noexcept;
 
+/// A glide from a to b prepared once, so that each point along it costs four exponentials
+/// and a division (the logarithms blend() takes at every call are taken here, once).
+/// coeffsAt(s) equals fromNatural(blend(a, b, s)) up to rounding.
+struct GlidePath
+{
+    SvfNatural from, to;
+    double logHigh0 = 0.0, logHighStep = 0.0, signHigh = 1.0; // |mHigh| in log when logHigh
+    double logLow0 = 0.0, logLowStep = 0.0, signLow = 1.0;
+    bool logHigh = false, logLow = false;
+
+    GlidePath() = default;
+    GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept;
+    /// The natural point a fraction s of the way (as blend(from, to, s)).
+    SvfNatural at(double s) const noexcept;
+    /// Processing coefficients a fraction s of the way.
+    SvfCoeffs coeffsAt(double s) const noexcept;
+};
+
 /// Whether a section stage may glide from settings a to b (same structure, moderate move:
 /// frequency within an octave, gain within 12 dB, Q and slope within a factor of two);
 /// otherwise the change crossfades. Both must be enabled section stages.
