@@ -437,6 +437,109 @@ std::vector<double> renderDelayJumps(bool kerfLayer, bool echo, unsigned seed, d
 }
 } // namespace
 
+namespace
+{
+/// A hand on the controls: every 50 ms each of 8 sections gets a new target a moderate
+/// step away (frequency within an octave, gain within 12 dB, Q within a factor of two),
+/// kept inside the full ranges, so that every change glides. Kerf's processor (stereo,
+/// 512-sample blocks) or the direct-form comparator.
+std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds)
+{
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<double> u(-1.0, 1.0);
+    const auto tone = kerf::test::testTone(kFs, seconds);
+    const int n = static_cast<int>(tone.size());
+    const int every = static_cast<int>(0.050 * kFs);
+    const int first = static_cast<int>(0.3 * kFs);
+    const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
+                               StageType::peaking};
+    ChainSpec c;
+    for (int i = 0; i < 8; ++i)
+    {
+        StageSpec s;
+        s.type = types[i % 4];
+        s.freqHz = 60.0 * std::pow(2.0, i);
+        s.gainDb = i % 2 ? 6.0 : -6.0;
+        s.q = 1.0;
+        s.slope = 0.7;
+        s.design = i % 3 ? DesignMode::accurate : DesignMode::bilinear;
+        c.push(s);
+    }
+    ChainProcessor p;
+    p.prepare(kFs, 512, 2);
+    p.setChain(c);
+    DirectFormChain df;
+    df.set(c);
+    std::vector<double> out(tone), r(tone);
+    for (int start = 0; start < n;)
+    {
+        const int next = std::min(start < first ? first : start + every, n);
+        if (start >= first)
+        {
+            for (int i = 0; i < 8; ++i)
+            {
+                StageSpec& s = c.stages[static_cast<std::size_t>(i)];
+                const StageSpec before = s;
+                s.freqHz = std::clamp(s.freqHz * std::pow(2.0, 0.95 * u(rng)), 20.0, 20000.0);
+                // Gains keep their sign (reaching 0 dB would crossfade, by design).
+                const double g = s.gainDb + 11.5 * u(rng);
+                s.gainDb = s.gainDb > 0.0 ? std::clamp(g, 0.5, 18.0) : std::clamp(g, -18.0, -0.5);
+                s.q = std::clamp(s.q * std::pow(2.0, 0.95 * u(rng)), 0.3, 10.0);
+                s.slope = std::clamp(s.slope * std::pow(2.0, 0.95 * u(rng)), 0.1, 1.0);
+                REQUIRE(sectionsCanGlide(before, s));
+            }
+            p.setChain(c);
+            df.set(c);
+        }
+        for (int b = start; b < next; b += 512)
+        {
+            const int len = std::min(512, next - b);
+            if (kerfLayer)
+            {
+                double* ch[2] = {out.data() + b, r.data() + b};
+                p.process(ch, 2, len);
+            }
+            else
+                for (int i = b; i < b + len; ++i)
+                    out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
+        }
+        start = next;
+    }
+    return out;
+}
+} // namespace
+
+TEST_CASE("smoothing: glides splatter far less than instant switching", "[smoothing]")
+{
+    // What glides (moderate moves, as a hand dragging handles or host automation makes
+    // them), measured as the issue's splatter bar measures jumps: the 100 Hz tone at -6 dBFS
+    // through 8 sections whose frequency, gain, Q and slope all move every 50 ms for 10 s.
+    // Checked here: at least 30 dB below instant switching in direct form (the issue's
+    // comparator margin). Today's figure (-50 dBFS above 1 kHz, from the per-sample linear
+    // steps between 32-sample knots; DEVELOPERS.md) misses the -80 dBFS the issue sets for
+    // jumps; the hidden test below keeps that goal.
+    const unsigned seed = 2718u;
+    INFO("seed " << seed);
+    const double kerf = kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0), kFs, 0.25);
+    const double direct = kerf::test::worstSplatterDbfs(renderDrags(false, seed, 10.0), kFs, 0.25);
+    INFO("worst 10 ms window above 1 kHz: Kerf " << kerf << " dBFS, direct form " << direct
+                                                 << " dBFS");
+    WARN("splatter, glides: Kerf " << kerf << " dBFS, direct form " << direct << " dBFS");
+    CHECK(direct >= kerf + 30.0);
+}
+
+TEST_CASE("smoothing: glides meet the -80 dBFS splatter bar (not yet met)",
+          "[.][smoothing][glide-bar]")
+{
+    // The issue's splatter bar (<= -80 dBFS above 1 kHz in every 10 ms window) applied to
+    // the glide scenario above. Hidden until met: the linear steps between knots leave
+    // about -50 dBFS (a knot every 16 samples: -65; every 8: -77; measured while building).
+    const unsigned seed = 2718u;
+    INFO("seed " << seed);
+    const double kerf = kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0), kFs, 0.25);
+    CHECK(kerf <= -80.0);
+}
+
 TEST_CASE("smoothing: splatter bar for comb and echo delay jumps", "[smoothing]")
 {
     // Issue bar, as for sections: the 100 Hz tone at -6 dBFS, the delay stage's settings
