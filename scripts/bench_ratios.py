@@ -12,6 +12,15 @@ PAIRS = [
      "the same without fused multiply-add (plain SSE2 kernel) / JUCE IIR (bar >= 2)"),
     ("BM_KerfResponse2048", "BM_JuceMagnitude2048",
      "chain magnitude at 2048 frequencies: Kerf speed / JUCE getMagnitudeForFrequency (bar >= 20)"),
+    # The click-free layer: here the "peer" is the gliding case, so the ratio is its cost.
+    ("BM_Static24Accurate", "BM_Gliding24AccurateEvery2",
+     "24 sections, every parameter gliding (new targets every 2 blocks) / static (bar <= 1.5)"),
+    ("BM_Static24Accurate", "BM_Gliding24AccurateEvery1",
+     "24 sections, new targets every block / static (bar <= 1.5)"),
+    ("BM_Static24Bilinear", "BM_Gliding24BilinearEvery2",
+     "bilinear designs, gliding every 2 blocks / static (bar <= 1.5)"),
+    ("BM_Static24Bilinear", "BM_Gliding24BilinearEvery1",
+     "bilinear designs, new targets every block / static (bar <= 1.5)"),
 ]
 
 data = json.load(open(sys.argv[1]))
