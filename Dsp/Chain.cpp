@@ -602,6 +602,14 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
 
 namespace
 {
+/// Two gliding sections side by side for the pair kernel: values {m_j, m_j+1} for each of
+/// a1, a2, g, c0, c1, c2, their per-sample steps, and the integrator memories as lanes
+/// [left j, left j+1, right j, right j+1].
+struct alignas(32) GlidePair
+{
+    double c[12], d[12], s1[4], s2[4];
+};
+
 /// The stereo kernel's view of one section: coefficient lanes and state lanes, and while
 /// gliding the per-sample step of each coefficient.
 struct StretchSection
@@ -609,6 +617,7 @@ struct StretchSection
     double* coeffs;      // static: a1, a2, g, c0, c1, c2 as pairs; gliding: once each (8)
     double* state;       // ic1, ic2 pairs
     const double* delta; // gliding: the per-sample steps of the coefficients (8)
+    bool ramped;         // gliding: coeffs are the section's running values (rampCur)
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -704,10 +713,90 @@ __attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* s
     KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_PAIR_COEF, KERF_NO_RAMP_STEP)
 }
 
-__attribute__((target("avx,fma"))) void stretchKernelRampFma(const StretchSection* sections,
-                                                             int count, double* l, double* r,
-                                                             int len, __m128d* carry) noexcept {
-    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_ONCE_COEF_SSE3, KERF_RAMP_STEP_AVX)}
+/// Gliding sections two at a time. The skewed order (section j works on sample t - j at
+/// step t) makes adjacent sections independent, so a pair shares one 256-bit register:
+/// lanes [left of j, left of j+1, right of j, right of j+1]. Each pair keeps its values
+/// side by side ({m_j, m_j+1} for each of a1, a2, g, c0, c1, c2), so one 128-bit broadcast
+/// gives a coefficient in all four lanes and one addition steps two sections' values. At
+/// the ends of the block a pair may have one section working and one idle (not yet
+/// started or finished): its lanes are kept as they were. cl[j], cr[j] hold the sample
+/// waiting to enter section j; an odd stretch ends with an identity section.
+__attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pairs, double* l,
+                                                          double* r, int len, double* cl,
+                                                          double* cr) noexcept
+{
+    const int last = 2 * pairs - 1;
+    for (int j = 0; j <= 2 * pairs; ++j)
+        cl[j] = cr[j] = 0.0;
+    for (int t = 0; t < len + last; ++t)
+    {
+        if (t < len)
+        {
+            cl[0] = l[t];
+            cr[0] = r[t];
+        }
+        const int pHigh = std::min(pairs - 1, t >> 1);
+        const int pLow = t - len <= 0 ? 0 : (t - len + 1) >> 1;
+        for (int p = pHigh; p >= pLow; --p)
+        {
+            GlidePair& g = w[p];
+            const double* c = g.c;
+#define KERF_BC(m) _mm256_broadcast_pd(reinterpret_cast<const __m128d*>(c + 2 * (m)))
+            const __m256d x = _mm256_insertf128_pd(_mm256_castpd128_pd256(_mm_load_pd(cl + 2 * p)),
+                                                   _mm_load_pd(cr + 2 * p), 1);
+            const __m256d ic1 = _mm256_load_pd(g.s1), ic2 = _mm256_load_pd(g.s2);
+            const __m256d v3 = _mm256_sub_pd(x, ic2);
+            const __m256d v1 = _mm256_fmadd_pd(KERF_BC(1), v3, _mm256_mul_pd(KERF_BC(0), ic1));
+            const __m256d v2 = _mm256_fmadd_pd(KERF_BC(2), v1, ic2);
+            const __m256d n1 = _mm256_sub_pd(_mm256_add_pd(v1, v1), ic1);
+            const __m256d n2 = _mm256_sub_pd(_mm256_add_pd(v2, v2), ic2);
+            const __m256d y = _mm256_fmadd_pd(
+                KERF_BC(5), v2, _mm256_fmadd_pd(KERF_BC(4), v1, _mm256_mul_pd(KERF_BC(3), x)));
+#undef KERF_BC
+            const __m256d c0 = _mm256_load_pd(g.c), c1 = _mm256_load_pd(g.c + 4),
+                          c2 = _mm256_load_pd(g.c + 8);
+            const __m256d s0 = _mm256_add_pd(c0, _mm256_load_pd(g.d));
+            const __m256d s1 = _mm256_add_pd(c1, _mm256_load_pd(g.d + 4));
+            const __m256d s2 = _mm256_add_pd(c2, _mm256_load_pd(g.d + 8));
+            const bool lo = 2 * p > t - len; // section 2p works on a sample of this block
+            const bool hi = 2 * p <= t - 1;  // section 2p + 1 does
+            if (lo && hi)
+            {
+                _mm256_store_pd(g.s1, n1);
+                _mm256_store_pd(g.s2, n2);
+                _mm256_store_pd(g.c, s0);
+                _mm256_store_pd(g.c + 4, s1);
+                _mm256_store_pd(g.c + 8, s2);
+            }
+            else if (lo)
+            {
+                _mm256_store_pd(g.s1, _mm256_blend_pd(ic1, n1, 5));
+                _mm256_store_pd(g.s2, _mm256_blend_pd(ic2, n2, 5));
+                _mm256_store_pd(g.c, _mm256_blend_pd(c0, s0, 5));
+                _mm256_store_pd(g.c + 4, _mm256_blend_pd(c1, s1, 5));
+                _mm256_store_pd(g.c + 8, _mm256_blend_pd(c2, s2, 5));
+            }
+            else
+            {
+                _mm256_store_pd(g.s1, _mm256_blend_pd(ic1, n1, 10));
+                _mm256_store_pd(g.s2, _mm256_blend_pd(ic2, n2, 10));
+                _mm256_store_pd(g.c, _mm256_blend_pd(c0, s0, 10));
+                _mm256_store_pd(g.c + 4, _mm256_blend_pd(c1, s1, 10));
+                _mm256_store_pd(g.c + 8, _mm256_blend_pd(c2, s2, 10));
+            }
+            // Outputs of sections 2p and 2p + 1 wait for sections 2p + 1 and 2p + 2 (an idle
+            // lane writes where nobody reads before it is written again).
+            _mm_storeu_pd(cl + 2 * p + 1, _mm256_castpd256_pd128(y));
+            _mm_storeu_pd(cr + 2 * p + 1, _mm256_extractf128_pd(y, 1));
+        }
+        const int n = t - last;
+        if (n >= 0)
+        {
+            l[n] = cl[2 * pairs];
+            r[n] = cr[2 * pairs];
+        }
+    }
+}
 #endif
 #undef KERF_STRETCH_BODY
 #undef KERF_SECTION_STEP
@@ -739,6 +828,59 @@ void ChainProcessor::allowFusedMultiplyAdd(bool allowed) noexcept
     fmaAllowed.store(allowed);
 }
 
+#if defined(__x86_64__) && defined(__GNUC__)
+void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l, double* r,
+                                   int len) noexcept
+{
+    // Lay the stretch out pair by pair, run the pair kernel, and put the memories and the
+    // stepped values back (the values only matter for gliding sections: rampCur).
+    const auto* list = static_cast<const StretchSection*>(sectionList);
+    const int pairs = (count + 1) / 2;
+    auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
+    for (int j = 0; j < 2 * pairs; ++j)
+    {
+        GlidePair& g = w[j / 2];
+        const int k = j & 1;
+        if (j < count)
+        {
+            const StretchSection& sec = list[j];
+            for (int m = 0; m < 6; ++m)
+            {
+                g.c[2 * m + k] = sec.coeffs[m];
+                g.d[2 * m + k] = sec.delta[m];
+            }
+            g.s1[k] = sec.state[0];
+            g.s1[2 + k] = sec.state[1];
+            g.s2[k] = sec.state[2];
+            g.s2[2 + k] = sec.state[3];
+        }
+        else
+        {
+            // Identity: y = v0 exactly, memories stay zero.
+            for (int m = 0; m < 6; ++m)
+                g.c[2 * m + k] = g.d[2 * m + k] = 0.0;
+            g.c[2 * 3 + k] = 1.0;
+            g.s1[k] = g.s1[2 + k] = g.s2[k] = g.s2[2 + k] = 0.0;
+        }
+    }
+    alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
+    pairRampKernelFma(w, pairs, l, r, len, cl, cr);
+    for (int j = 0; j < count; ++j)
+    {
+        const GlidePair& g = w[j / 2];
+        const int k = j & 1;
+        const StretchSection& sec = list[j];
+        sec.state[0] = g.s1[k];
+        sec.state[1] = g.s1[2 + k];
+        sec.state[2] = g.s2[k];
+        sec.state[3] = g.s2[2 + k];
+        if (sec.ramped)
+            for (int m = 0; m < 6; ++m)
+                sec.coeffs[m] = g.c[2 * m + k];
+    }
+}
+#endif
+
 void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, int len) noexcept
 {
     // Sample by sample through every section of the stretch: consecutive sections are
@@ -754,7 +896,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const auto u = static_cast<std::size_t>(j);
             list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1,
-                                                       rampStep[u].v};
+                                                       rampStep[u].v, false};
             ramp = ramp || ramping[u];
         }
     }
@@ -782,6 +924,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
                 }
                 rampCurClock[u] = clock + len;
                 list[static_cast<std::size_t>(k)].coeffs = rampCur[u].v;
+                list[static_cast<std::size_t>(k)].ramped = true;
             }
         }
     }
@@ -789,7 +932,12 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
 #if defined(__x86_64__) && defined(__GNUC__)
     if (hasFma())
     {
-        (ramp ? stretchKernelRampFma : stretchKernelFma)(list.data(), count, l, r, len, carry);
+        if (ramp)
+        {
+            runGlidePairs(list.data(), count, l, r, len);
+            return;
+        }
+        stretchKernelFma(list.data(), count, l, r, len, carry);
         return;
     }
 #endif

@@ -269,6 +269,14 @@ private:
     std::array<RampCoeffs, kMaxSectionSlots> rampCur{};
     std::array<long long, kMaxSectionSlots> rampCurClock{};
     RampCoeffs rampValuesNow(int idx) const noexcept; // a section's values at `clock`
+    // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
+    // 256-byte entry, laid out for one 256-bit register.
+    struct alignas(32) GlidePairRoom
+    {
+        double v[32];
+    };
+    std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
+    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
