@@ -1,5 +1,7 @@
 #include "EditHistory.h"
 
+#include <algorithm>
+
 namespace kerf
 {
 
@@ -65,6 +67,16 @@ EditHistory::~EditHistory()
         param->removeListener(this);
 }
 
+void EditHistory::ignore(int parameterIndex)
+{
+    ignored.push_back(parameterIndex);
+}
+
+bool EditHistory::isIgnored(int index) const
+{
+    return std::find(ignored.begin(), ignored.end(), index) != ignored.end();
+}
+
 EditHistory::Values EditHistory::capture() const
 {
     const auto& params = processor.getParameters();
@@ -79,7 +91,7 @@ void EditHistory::apply(const Values& values)
     const juce::ScopedValueSetter<bool> guard(applying, true);
     const auto& params = processor.getParameters();
     for (int i = 0; i < params.size() && i < static_cast<int>(values.size()); ++i)
-        if (params[i]->getValue() != values[static_cast<std::size_t>(i)])
+        if (!isIgnored(i) && params[i]->getValue() != values[static_cast<std::size_t>(i)])
             params[i]->setValueNotifyingHost(values[static_cast<std::size_t>(i)]);
 }
 
@@ -97,7 +109,7 @@ void EditHistory::record(const juce::String& name, const Values& before, const V
 {
     std::vector<Change> changes;
     for (std::size_t i = 0; i < before.size() && i < after.size(); ++i)
-        if (before[i] != after[i])
+        if (before[i] != after[i] && !isIgnored(static_cast<int>(i)))
             changes.push_back({static_cast<int>(i), before[i], after[i]});
     if (changes.empty() && !undoExtra && !redoExtra)
         return;
@@ -154,7 +166,7 @@ void EditHistory::parameterGestureChanged(int parameterIndex, bool gestureIsStar
 {
     // Gestures come from controls on the message thread; anything else (a host thread, or
     // this history applying a step) is not an edit of its own.
-    if (applying || !onMessageThread())
+    if (applying || isIgnored(parameterIndex) || !onMessageThread())
         return;
     if (gestureIsStarting)
     {

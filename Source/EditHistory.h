@@ -24,9 +24,14 @@ public:
     explicit EditHistory(juce::AudioProcessor& processor);
     ~EditHistory() override;
 
+    /// Leaves a parameter out of the history: its gestures are no steps, steps do not change
+    /// it and apply() leaves it alone (the bypass switch belongs to the host).
+    void ignore(int parameterIndex);
+
     /// The current normalised value of every parameter.
     Values capture() const;
-    /// Sets every parameter whose value differs (the host is told of each change).
+    /// Sets every parameter whose value differs (the host is told of each change), except
+    /// the ignored ones.
     void apply(const Values& values);
 
     /// Runs `change` (which sets parameters) as one undoable step called `name`.
@@ -69,6 +74,8 @@ private:
     int openGestures = 0;
     int gestureParameter = -1; // the parameter of a one-parameter gesture, else -1
     bool applying = false;
+    std::vector<int> ignored;
+    bool isIgnored(int index) const;
 
     JUCE_DECLARE_NON_COPYABLE(EditHistory)
 };

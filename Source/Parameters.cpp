@@ -294,6 +294,8 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
             .withValueFromStringFunction(
                 [](const juce::String& t)
                 { return t.trim().removeCharacters(" ms").getFloatValue(); })));
+    layout.add(std::make_unique<juce::AudioParameterBool>(
+        juce::ParameterID{ids::bypass, kParameterVersionBypass}, "Bypass", false));
     return layout;
 }
 
@@ -319,6 +321,7 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
     protectOn = state.getRawParameterValue(ids::protectOn);
     protectCeilingDb = state.getRawParameterValue(ids::protectCeiling);
     glideMs = state.getRawParameterValue(ids::glideMs);
+    bypass = state.getRawParameterValue(ids::bypass);
     for (int c = 0; c < kNumCombSlots; ++c)
     {
         auto& k = combs[static_cast<std::size_t>(c)];

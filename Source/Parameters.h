@@ -26,6 +26,8 @@ inline constexpr float kPluginEchoGainMax = 0.95f;
 inline constexpr int kParameterVersion = 1;
 /// Version hint of parameters added with the click-free layer (the glide time).
 inline constexpr int kParameterVersionGlide = 2;
+/// Version hint of the plugin's own bypass (the host's bypass switch, faded).
+inline constexpr int kParameterVersionBypass = 3;
 /// Section slots the plugin offers.
 inline constexpr int kNumSectionSlots = 24;
 /// Comb slots the plugin offers (after the sections in the chain).
@@ -51,6 +53,8 @@ inline const juce::String protectOn = "protect_on";
 inline const juce::String protectCeiling = "protect_ceiling";
 /// Glide and crossfade time of every change, ms (0 = the shortest clean move).
 inline const juce::String glideMs = "glide_ms";
+/// The plugin's bypass, offered to hosts as their bypass switch; crossfaded, never a click.
+inline const juce::String bypass = "bypass";
 inline const juce::String echoOn = "echo_on";
 inline const juce::String echoMethod = "echo_method";
 inline const juce::String echoTerms = "echo_terms";
@@ -88,6 +92,7 @@ struct ParameterRefs
     std::atomic<float>* protectOn = nullptr;
     std::atomic<float>* protectCeilingDb = nullptr;
     std::atomic<float>* glideMs = nullptr;
+    std::atomic<float>* bypass = nullptr;
     std::atomic<float>* echoOn = nullptr;
     std::atomic<float>* echoMethod = nullptr;
     std::atomic<float>* echoTerms = nullptr;

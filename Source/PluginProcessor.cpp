@@ -19,6 +19,8 @@ KerfProcessor::KerfProcessor()
                          .withOutput("Output", juce::AudioChannelSet::stereo(), true)),
       parameters(*this, nullptr, kStateTag, createParameterLayout()), refs(parameters)
 {
+    // The host's bypass switch is no edit of the settings: not in undo, A/B or presets.
+    edits.ignore(parameters.getParameter(ids::bypass)->getParameterIndex());
 }
 
 bool KerfProcessor::isBusesLayoutSupported(const BusesLayout& layouts) const
@@ -37,10 +39,34 @@ void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
     chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
     chain.setChain(snapshot);
     lastOutputGain = juce::Decibels::decibelsToGain(refs.outputGainDb->load(), -120.0f);
+    // The bypass crossfade's copy of the input (blocks longer than this are split).
+    dryCopy.setSize(juce::jmax(2, getTotalNumInputChannels(), getTotalNumOutputChannels()),
+                    juce::jmax(1, samplesPerBlock));
+    wetAmount = refs.bypass->load() > 0.5f ? 0.0 : 1.0;
     setLatencySamples(0);
 }
 
 template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Sample>& buffer)
+{
+    // The bypass crossfade copies the input first: blocks longer than the copy prepared in
+    // prepareToPlay (hosts rarely send them) are processed in pieces, without allocating
+    // (an AudioBuffer that refers to existing channels keeps their pointers in place).
+    const int most = dryCopy.getNumSamples();
+    if (most > 0 && buffer.getNumSamples() > most)
+    {
+        for (int start = 0; start < buffer.getNumSamples(); start += most)
+        {
+            juce::AudioBuffer<Sample> piece(buffer.getArrayOfWritePointers(),
+                                            buffer.getNumChannels(), start,
+                                            juce::jmin(most, buffer.getNumSamples() - start));
+            processPiece(piece);
+        }
+        return;
+    }
+    processPiece(buffer);
+}
+
+template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sample>& buffer)
 {
     juce::ScopedNoDenormals noDenormals;
     const int numSamples = buffer.getNumSamples();
@@ -50,6 +76,21 @@ template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Samp
 
     // The echo estimate listens to the input as it arrives, before any processing.
     capture.push(buffer.getArrayOfReadPointers(), getTotalNumInputChannels(), numSamples);
+
+    // Bypass: the chain keeps running (its memories stay current, so coming back is smooth)
+    // and the output crossfades between the processed and the untouched input.
+    const double wetTarget = refs.bypass->load() > 0.5f ? 0.0 : 1.0;
+    const int dryChannels = juce::jmin(numChannels, dryCopy.getNumChannels());
+    const bool crossfade = (wetAmount != 1.0 || wetTarget != 1.0) &&
+                           numSamples <= dryCopy.getNumSamples() && dryChannels > 0;
+    if (crossfade)
+        for (int ch = 0; ch < dryChannels; ++ch)
+        {
+            const Sample* in = buffer.getReadPointer(ch);
+            double* dry = dryCopy.getWritePointer(ch);
+            for (int i = 0; i < numSamples; ++i)
+                dry[i] = static_cast<double>(in[i]);
+        }
 
     // Hosts here give no sample offsets for parameter changes (JUCE 7.0.5's wrappers apply
     // them at block start), so the parameters are read again every kUpdateIntervalSamples
@@ -84,6 +125,46 @@ template <typename Sample> void KerfProcessor::processAny(juce::AudioBuffer<Samp
         protection.setCeilingDb(refs.protectCeilingDb->load());
         protection.process(buffer.getArrayOfWritePointers(), numChannels, numSamples);
     }
+
+    if (crossfade)
+        applyBypassCrossfade(buffer, dryChannels, wetTarget);
+}
+
+template <typename Sample>
+void KerfProcessor::applyBypassCrossfade(juce::AudioBuffer<Sample>& buffer, int dryChannels,
+                                         double wetTarget) noexcept
+{
+    // The crossfade takes the glide time (at least the shortest clean move), its position
+    // moving linearly and its gain along a raised cosine, so the gain's slope is zero at
+    // both ends (common practice for click-free fades). At the ends the output is exactly
+    // the processed signal, or exactly the input.
+    const double rate = getSampleRate() > 0.0 ? getSampleRate() : 48000.0;
+    const double fadeMs =
+        juce::jmax(dsp::kMinTransitionMs, static_cast<double>(refs.glideMs->load()));
+    const double step = 1000.0 / (fadeMs * rate);
+    const int numSamples = buffer.getNumSamples();
+    const double start = wetAmount;
+    for (int ch = 0; ch < buffer.getNumChannels(); ++ch)
+    {
+        Sample* out = buffer.getWritePointer(ch);
+        const double* dry = ch < dryChannels ? dryCopy.getReadPointer(ch) : nullptr;
+        double w = start;
+        for (int i = 0; i < numSamples; ++i)
+        {
+            w = wetTarget > w ? juce::jmin(wetTarget, w + step) : juce::jmax(wetTarget, w - step);
+            const double dryValue = dry != nullptr ? dry[i] : 0.0;
+            if (w <= 0.0)
+                out[i] = static_cast<Sample>(dryValue);
+            else if (w < 1.0)
+            {
+                const double g = 0.5 - 0.5 * std::cos(juce::MathConstants<double>::pi * w);
+                out[i] =
+                    static_cast<Sample>(dryValue + g * (static_cast<double>(out[i]) - dryValue));
+            }
+        }
+        if (ch + 1 == buffer.getNumChannels())
+            wetAmount = w;
+    }
 }
 
 void KerfProcessor::processBlock(juce::AudioBuffer<float>& buffer, juce::MidiBuffer&)
@@ -94,6 +175,11 @@ void KerfProcessor::processBlock(juce::AudioBuffer<float>& buffer, juce::MidiBuf
 void KerfProcessor::processBlock(juce::AudioBuffer<double>& buffer, juce::MidiBuffer&)
 {
     processAny(buffer);
+}
+
+juce::AudioProcessorParameter* KerfProcessor::getBypassParameter() const
+{
+    return parameters.getParameter(ids::bypass);
 }
 
 juce::AudioProcessorEditor* KerfProcessor::createEditor()

@@ -39,6 +39,9 @@ public:
     void processBlock(juce::AudioBuffer<float>&, juce::MidiBuffer&) override;
     void processBlock(juce::AudioBuffer<double>&, juce::MidiBuffer&) override;
     bool supportsDoublePrecisionProcessing() const override { return true; }
+    /// The plugin's own bypass ("bypass"): hosts switch it instead of skipping the plugin,
+    /// and the output crossfades to the untouched input over the glide time (no click).
+    juce::AudioProcessorParameter* getBypassParameter() const override;
 
     juce::AudioProcessorEditor* createEditor() override;
     bool hasEditor() const override { return true; }
@@ -121,6 +124,10 @@ public:
 
 private:
     template <typename Sample> void processAny(juce::AudioBuffer<Sample>& buffer);
+    template <typename Sample> void processPiece(juce::AudioBuffer<Sample>& buffer);
+    template <typename Sample>
+    void applyBypassCrossfade(juce::AudioBuffer<Sample>& buffer, int dryChannels,
+                              double wetTarget) noexcept;
     void resetToDefaults();
 
     juce::AudioProcessorValueTreeState parameters;
@@ -130,6 +137,8 @@ private:
     dsp::OutputProtection protection;
     EchoCapture capture;
     double lastOutputGain = 1.0;
+    juce::AudioBuffer<double> dryCopy; // the input, for the bypass crossfade
+    double wetAmount = 1.0;            // 1 = processed, 0 = bypassed (crossfade position)
     int currentProgram = 0;
     juce::String stateProblem;
     UserPresetFolder presetFolder;

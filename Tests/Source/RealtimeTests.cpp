@@ -105,8 +105,10 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
     // Common practice (no heap allocation on the audio thread), while the click-free layer
     // works its hardest: every block size from 1 to 700, the glide time itself automated,
     // parameters jumping (crossfades) and creeping (glides), factory programs loaded, two
-    // saved states swapped, the comparison slots switched, steps undone and redone and
-    // "all flat" pressed between blocks, as a host's or editor's message thread would.
+    // saved states swapped, the comparison slots switched, steps undone and redone, "all
+    // flat" pressed and the bypass switched between blocks, as a host's or editor's message
+    // thread would. Blocks up to 700 samples against 700 prepared; a few longer ones (split
+    // inside for the bypass copy) too.
     juce::ScopedJuceInitialiser_GUI init;
     kerf::KerfProcessor p;
     p.setPlayConfigDetails(2, 2, 48000.0, 700);
@@ -116,7 +118,7 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
     p.getStateInformation(stateA);
     p.setCurrentProgram(p.getNumPrograms() - 1);
     p.getStateInformation(stateB);
-    juce::AudioBuffer<float> buffer(2, 700);
+    juce::AudioBuffer<float> buffer(2, 1500);
     juce::MidiBuffer midi;
     const unsigned seed = 5151u;
     INFO("seed " << seed);
@@ -128,7 +130,7 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
     bool finite = true;
     for (int block = 0; block < 1500; ++block)
     {
-        const int n = 1 + static_cast<int>(u(rng) * 699.0f);
+        const int n = block % 50 == 49 ? 1500 : 1 + static_cast<int>(u(rng) * 699.0f);
         const float what = u(rng);
         if (what < 0.05f)
             p.setCurrentProgram(static_cast<int>(u(rng) * static_cast<float>(p.getNumPrograms())));
@@ -147,6 +149,8 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
             p.redo();
         else if (what < 0.22f)
             p.setAllFlat();
+        else if (what < 0.25f) // the host's bypass switch (crossfaded)
+            p.getBypassParameter()->setValueNotifyingHost(u(rng) < 0.5f ? 1.0f : 0.0f);
         else
             for (int k = 0; k < 4; ++k)
             {

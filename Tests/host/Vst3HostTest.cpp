@@ -395,3 +395,50 @@ TEST_CASE("VST3: a saved state restores into a new instance", "[host][vst3]")
     first->releaseResources();
     second->releaseResources();
 }
+
+TEST_CASE("VST3: the host's bypass switch crossfades to the untouched input", "[host][vst3]")
+{
+    // VST3 SDK: a parameter flagged kIsBypass is the host's bypass switch; the plugin then
+    // processes while bypassed and must output its input (Steinberg VST3 documentation,
+    // "Bypass"). Kerf fades over its glide time (20 ms by default), so from 0.1 s after
+    // the switch the output must equal the input exactly, and before the switch equal the
+    // processed signal.
+    juce::ScopedJuceInitialiser_GUI juce;
+    auto plugin = loadKerf();
+    prepareStereo(*plugin);
+    auto* bypass = plugin->getBypassParameter();
+    REQUIRE(bypass != nullptr);
+    CHECK(bypass->getName(64) == "Bypass");
+    for (const auto& b : kBands)
+    {
+        setByText(*plugin, sectionName(b.slot, "on"), "On");
+        setByText(*plugin, sectionName(b.slot, "frequency"), b.freq);
+        setByText(*plugin, sectionName(b.slot, "gain"), b.gain);
+        setByText(*plugin, sectionName(b.slot, "Q"), b.q);
+    }
+    const auto input = testSignal();
+    auto output = input;
+    juce::MidiBuffer midi;
+    const int switchAt = 48 * kBlock; // about 0.5 s
+    for (int start = 0; start < output.getNumSamples(); start += kBlock)
+    {
+        if (start == switchAt)
+            bypass->setValueNotifyingHost(1.0f);
+        const int n = std::min(kBlock, output.getNumSamples() - start);
+        juce::AudioBuffer<float> view(output.getArrayOfWritePointers(), kChannels, start, n);
+        plugin->processBlock(view, midi);
+    }
+    plugin->releaseResources();
+    double beforeDiff = 0.0, afterDiff = 0.0;
+    for (int ch = 0; ch < kChannels; ++ch)
+    {
+        for (int i = 0; i < switchAt; ++i)
+            beforeDiff = std::max(
+                beforeDiff, double(std::abs(output.getSample(ch, i) - input.getSample(ch, i))));
+        for (int i = switchAt + static_cast<int>(0.1 * kRate); i < output.getNumSamples(); ++i)
+            afterDiff = std::max(
+                afterDiff, double(std::abs(output.getSample(ch, i) - input.getSample(ch, i))));
+    }
+    CHECK(beforeDiff > 1e-2); // processing before the switch (4.5 and 6 dB sections)
+    CHECK(afterDiff == 0.0);  // the input, untouched, once faded
+}

@@ -56,8 +56,10 @@ MIN_CHANGE_RMS_RATIO = 0.01
 # lv2_validate errors that come from JUCE 7.0.5's TTL generator
 # (juce_audio_plugin_client/LV2/juce_LV2_Client.cpp), not from anything Kerf declares. Each
 # is (message, subject regex, predicate, object regex); anything else fails the test.
-# Any of the plugin's parameters (Source/Parameters.cpp): secNN_<field>, out_*, protect_*.
-PARAM = LV2_URI + r":(sec\d\d_[a-z]+|echo_[a-z0-9_]+|comb\d_[a-z]+|out_[a-z]+|protect_[a-z]+)"
+# Any of the plugin's parameters (Source/Parameters.cpp): secNN_<field>, echo_*, combN_*,
+# out_*, protect_*, bypass.
+PARAM = (LV2_URI
+         + r":(sec\d\d_[a-z]+|echo_[a-z0-9_]+|comb\d_[a-z]+|out_[a-z]+|protect_[a-z]+|bypass)")
 KNOWN_JUCE_TTL_ERRORS = [
     # The plugin carries doap:maintainer / doap:release but is not typed doap:Project.
     ("Subject not in domain <http://usefulinc.com/ns/doap#Project>", re.escape(LV2_URI),
