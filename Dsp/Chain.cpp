@@ -233,23 +233,27 @@ void ChainProcessor::setSectionCoeffs(int idx, const SvfCoeffs& c) noexcept
     spreadPairs(rampKnot[i].v, pairCoeffs[i]);
     rampBase[i] = rampKnot[i];
     rampStep[i] = RampCoeffs{};
+    rampCurve[i] = RampCoeffs{};
     ramping[i] = false;
 }
 
-ChainProcessor::RampCoeffs ChainProcessor::rampValuesNow(int idx) const noexcept
+ChainProcessor::RampRun ChainProcessor::rampValuesNow(int idx) const noexcept
 {
     const auto i = static_cast<std::size_t>(idx);
     if (!ramping[i])
-        return rampKnot[i];
-    // The same additions, in the same order, as the kernels make sample by sample.
+        return {rampKnot[i], RampCoeffs{}};
     if (rampCurClock[i] == clock)
         return rampCur[i];
-    RampCoeffs c = rampBase[i];
+    // The same additions, in the same order, as the kernels make sample by sample.
+    RampRun r{rampBase[i], rampStep[i]};
     const long long steps = clock - rampStart[i];
     for (long long n = 0; n < steps; ++n)
         for (int m = 0; m < 6; ++m)
-            c.v[m] += rampStep[i].v[m];
-    return c;
+        {
+            r.value.v[m] += r.step.v[m];
+            r.step.v[m] += rampCurve[i].v[m];
+        }
+    return r;
 }
 
 ChainProcessor::Voice ChainProcessor::makeVoice(int stage, const StageSpec& spec, int bank,
@@ -327,9 +331,12 @@ void ChainProcessor::freezeGlides(const Voice& v) noexcept
     for (int idx = v.first; idx < v.first + v.count; ++idx)
     {
         const auto i = static_cast<std::size_t>(idx);
+        // Stay where the last update left the section (on its glide path, or still).
+        if (glides[i].on)
+            setSectionCoeffs(idx, glides[i].path.coeffsAt(glides[i].s));
+        else
+            setSectionCoeffs(idx, coeffs[i]);
         glides[i].on = false;
-        // Stay exactly where the last update left the section (coeffs holds that point).
-        setSectionCoeffs(idx, coeffs[i]);
     }
 }
 
@@ -405,6 +412,8 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
             g.on ? g.path.at(g.s) : toNatural(coeffs[static_cast<std::size_t>(idx)]);
         g.path = GlidePath(from, toNatural(target));
         g.s = 0.0;
+        for (double& v : g.slope)
+            v = 0.0; // the transition curve starts at rest
         g.target = target;
         g.pos = 0;
         g.len = len;
@@ -514,22 +523,37 @@ void ChainProcessor::update() noexcept
                 }
                 gliding = true;
                 g.pos = std::min(g.pos + K, g.len);
-                SvfCoeffs end = g.target;
+                // The segment to the next update: exact values and slope at its end, a
+                // parabola from here (exact values, the slope the last update found) to there.
+                double end[6], endSlope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
                 if (g.pos < g.len)
                 {
-                    g.s = transitionCurve(static_cast<double>(g.pos) / static_cast<double>(g.len));
-                    end = g.path.coeffsAt(g.s);
+                    const double t = static_cast<double>(g.pos) / static_cast<double>(g.len);
+                    g.s = transitionCurve(t);
+                    g.path.foldedAt(g.s, end, endSlope);
+                    const double dsdn = transitionSlope(t) / static_cast<double>(g.len);
+                    for (double& v : endSlope)
+                        v *= dsdn;
                 }
                 else
+                {
                     g.s = 1.0;
-                // Per-sample linear steps from the last update's exact values to this one's.
-                coeffs[u] = end;
+                    foldCoeffs(g.target, end);
+                }
                 rampBase[u] = rampKnot[u];
-                foldCoeffs(end, rampKnot[u].v);
+                constexpr double kk = static_cast<double>(K) * static_cast<double>(K);
                 for (int m = 0; m < 6; ++m)
-                    rampStep[u].v[m] = (rampKnot[u].v[m] - rampBase[u].v[m]) / K;
+                {
+                    // v(n) = base + slope n + alpha n^2: v(K) = end. Per sample: the step
+                    // v(n+1) - v(n) = slope + alpha (2n + 1), growing by 2 alpha.
+                    const double alpha = (end[m] - rampBase[u].v[m] - g.slope[m] * K) / kk;
+                    rampStep[u].v[m] = g.slope[m] + alpha;
+                    rampCurve[u].v[m] = 2.0 * alpha;
+                    rampKnot[u].v[m] = end[m];
+                    g.slope[m] = endSlope[m];
+                }
                 rampStart[u] = clock;
-                rampCur[u] = rampBase[u];
+                rampCur[u] = {rampBase[u], rampStep[u]};
                 rampCurClock[u] = clock;
                 ramping[u] = true;
             }
@@ -568,10 +592,12 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
         {
             // Gliding: the folded form with its coefficients stepping linearly per sample
             // from the last update's values (the stereo kernel's arithmetic, one lane).
-            const RampCoeffs now = rampValuesNow(j);
-            const double* c = now.v;
-            const double* d = rampStep[idx].v;
+            const RampRun now = rampValuesNow(j);
+            const double* c = now.value.v;
+            const double* d = now.step.v;
+            const double* dd = rampCurve[idx].v;
             double a1 = c[0], a2 = c[1], g = c[2], c0 = c[3], c1 = c[4], c2 = c[5];
+            double d0 = d[0], d1 = d[1], d2 = d[2], d3 = d[3], d4 = d[4], d5 = d[5];
             double ic1 = s.ic1eq, ic2 = s.ic2eq;
             for (int n = 0; n < len; ++n)
             {
@@ -581,12 +607,18 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
                 ic1 = 2.0 * v1 - ic1;
                 ic2 = 2.0 * v2 - ic2;
                 x[n] = c2 * v2 + (c1 * v1 + c0 * v0);
-                a1 += d[0];
-                a2 += d[1];
-                g += d[2];
-                c0 += d[3];
-                c1 += d[4];
-                c2 += d[5];
+                a1 += d0;
+                a2 += d1;
+                g += d2;
+                c0 += d3;
+                c1 += d4;
+                c2 += d5;
+                d0 += dd[0];
+                d1 += dd[1];
+                d2 += dd[2];
+                d3 += dd[3];
+                d4 += dd[4];
+                d5 += dd[5];
             }
             s = {ic1, ic2};
         }
@@ -603,11 +635,11 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
 namespace
 {
 /// Two gliding sections side by side for the pair kernel: values {m_j, m_j+1} for each of
-/// a1, a2, g, c0, c1, c2, their per-sample steps, and the integrator memories as lanes
-/// [left j, left j+1, right j, right j+1].
+/// a1, a2, g, c0, c1, c2, their per-sample steps and the steps' changes, and the integrator
+/// memories as lanes [left j, left j+1, right j, right j+1].
 struct alignas(32) GlidePair
 {
-    double c[12], d[12], s1[4], s2[4];
+    double c[12], d[12], dd[12], s1[4], s2[4];
 };
 
 /// The stereo kernel's view of one section: coefficient lanes and state lanes, and while
@@ -616,8 +648,9 @@ struct StretchSection
 {
     double* coeffs;      // static: a1, a2, g, c0, c1, c2 as pairs; gliding: once each (8)
     double* state;       // ic1, ic2 pairs
-    const double* delta; // gliding: the per-sample steps of the coefficients (8)
-    bool ramped;         // gliding: coeffs are the section's running values (rampCur)
+    double* delta;       // gliding: the running per-sample steps of the values (8)
+    const double* curve; // gliding: the per-sample change of the steps (8)
+    bool ramped;         // gliding: coeffs and delta are the section's own (rampCur)
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -640,19 +673,17 @@ struct StretchSection
 #define KERF_ONCE_COEF_SSE2(m) _mm_load1_pd(c + (m))
 #define KERF_ONCE_COEF_SSE3(m) _mm_loaddup_pd(c + (m))
 
-/// The glide step: every coefficient moves by its per-sample step.
+/// The glide step: every value moves by its step, every step by its curve.
 #define KERF_RAMP_STEP_SSE2                                                                        \
     {                                                                                              \
-        const double* dl = sections[j].delta;                                                      \
-        _mm_store_pd(c, _mm_add_pd(_mm_load_pd(c), _mm_load_pd(dl)));                              \
-        _mm_store_pd(c + 2, _mm_add_pd(_mm_load_pd(c + 2), _mm_load_pd(dl + 2)));                  \
-        _mm_store_pd(c + 4, _mm_add_pd(_mm_load_pd(c + 4), _mm_load_pd(dl + 4)));                  \
-    }
-#define KERF_RAMP_STEP_AVX                                                                         \
-    {                                                                                              \
-        const double* dl = sections[j].delta;                                                      \
-        _mm256_store_pd(c, _mm256_add_pd(_mm256_load_pd(c), _mm256_load_pd(dl)));                  \
-        _mm_store_pd(c + 4, _mm_add_pd(_mm_load_pd(c + 4), _mm_load_pd(dl + 4)));                  \
+        double* dl = sections[j].delta;                                                            \
+        const double* cv = sections[j].curve;                                                      \
+        for (int m = 0; m < 6; m += 2)                                                             \
+        {                                                                                          \
+            const __m128d step = _mm_load_pd(dl + m);                                              \
+            _mm_store_pd(c + m, _mm_add_pd(_mm_load_pd(c + m), step));                             \
+            _mm_store_pd(dl + m, _mm_add_pd(step, _mm_load_pd(cv + m)));                           \
+        }                                                                                          \
     }
 #define KERF_NO_RAMP_STEP
 
@@ -755,35 +786,36 @@ __attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pair
 #undef KERF_BC
             const __m256d c0 = _mm256_load_pd(g.c), c1 = _mm256_load_pd(g.c + 4),
                           c2 = _mm256_load_pd(g.c + 8);
-            const __m256d s0 = _mm256_add_pd(c0, _mm256_load_pd(g.d));
-            const __m256d s1 = _mm256_add_pd(c1, _mm256_load_pd(g.d + 4));
-            const __m256d s2 = _mm256_add_pd(c2, _mm256_load_pd(g.d + 8));
+            const __m256d d0 = _mm256_load_pd(g.d), d1 = _mm256_load_pd(g.d + 4),
+                          d2 = _mm256_load_pd(g.d + 8);
+            __m256d out[7] = {n1,
+                              n2,
+                              _mm256_add_pd(c0, d0),
+                              _mm256_add_pd(c1, d1),
+                              _mm256_add_pd(c2, d2),
+                              _mm256_add_pd(d0, _mm256_load_pd(g.dd)),
+                              _mm256_add_pd(d1, _mm256_load_pd(g.dd + 4))};
+            const __m256d d2n = _mm256_add_pd(d2, _mm256_load_pd(g.dd + 8));
             const bool lo = 2 * p > t - len; // section 2p works on a sample of this block
             const bool hi = 2 * p <= t - 1;  // section 2p + 1 does
-            if (lo && hi)
+            if (!(lo && hi))
             {
-                _mm256_store_pd(g.s1, n1);
-                _mm256_store_pd(g.s2, n2);
-                _mm256_store_pd(g.c, s0);
-                _mm256_store_pd(g.c + 4, s1);
-                _mm256_store_pd(g.c + 8, s2);
+                // Lanes 0 and 2 belong to section 2p, lanes 1 and 3 to 2p + 1.
+                const __m256d was[7] = {ic1, ic2, c0, c1, c2, d0, d1};
+                for (int q = 0; q < 7; ++q)
+                    out[q] = lo ? _mm256_blend_pd(was[q], out[q], 5)
+                                : _mm256_blend_pd(was[q], out[q], 10);
             }
-            else if (lo)
-            {
-                _mm256_store_pd(g.s1, _mm256_blend_pd(ic1, n1, 5));
-                _mm256_store_pd(g.s2, _mm256_blend_pd(ic2, n2, 5));
-                _mm256_store_pd(g.c, _mm256_blend_pd(c0, s0, 5));
-                _mm256_store_pd(g.c + 4, _mm256_blend_pd(c1, s1, 5));
-                _mm256_store_pd(g.c + 8, _mm256_blend_pd(c2, s2, 5));
-            }
-            else
-            {
-                _mm256_store_pd(g.s1, _mm256_blend_pd(ic1, n1, 10));
-                _mm256_store_pd(g.s2, _mm256_blend_pd(ic2, n2, 10));
-                _mm256_store_pd(g.c, _mm256_blend_pd(c0, s0, 10));
-                _mm256_store_pd(g.c + 4, _mm256_blend_pd(c1, s1, 10));
-                _mm256_store_pd(g.c + 8, _mm256_blend_pd(c2, s2, 10));
-            }
+            _mm256_store_pd(g.s1, out[0]);
+            _mm256_store_pd(g.s2, out[1]);
+            _mm256_store_pd(g.c, out[2]);
+            _mm256_store_pd(g.c + 4, out[3]);
+            _mm256_store_pd(g.c + 8, out[4]);
+            _mm256_store_pd(g.d, out[5]);
+            _mm256_store_pd(g.d + 4, out[6]);
+            _mm256_store_pd(g.d + 8, lo && hi ? d2n
+                                     : lo     ? _mm256_blend_pd(d2, d2n, 5)
+                                              : _mm256_blend_pd(d2, d2n, 10));
             // Outputs of sections 2p and 2p + 1 wait for sections 2p + 1 and 2p + 2 (an idle
             // lane writes where nobody reads before it is written again).
             _mm_storeu_pd(cl + 2 * p + 1, _mm256_castpd256_pd128(y));
@@ -804,7 +836,6 @@ __attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pair
 #undef KERF_ONCE_COEF_SSE2
 #undef KERF_ONCE_COEF_SSE3
 #undef KERF_RAMP_STEP_SSE2
-#undef KERF_RAMP_STEP_AVX
 #undef KERF_NO_RAMP_STEP
 #else
 #error "Kerf's processing kernels need SSE2 (x86-64); add a portable kernel for other CPUs."
@@ -848,6 +879,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
             {
                 g.c[2 * m + k] = sec.coeffs[m];
                 g.d[2 * m + k] = sec.delta[m];
+                g.dd[2 * m + k] = sec.curve[m];
             }
             g.s1[k] = sec.state[0];
             g.s1[2 + k] = sec.state[1];
@@ -858,7 +890,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         {
             // Identity: y = v0 exactly, memories stay zero.
             for (int m = 0; m < 6; ++m)
-                g.c[2 * m + k] = g.d[2 * m + k] = 0.0;
+                g.c[2 * m + k] = g.d[2 * m + k] = g.dd[2 * m + k] = 0.0;
             g.c[2 * 3 + k] = 1.0;
             g.s1[k] = g.s1[2 + k] = g.s2[k] = g.s2[2 + k] = 0.0;
         }
@@ -876,7 +908,10 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         sec.state[3] = g.s2[2 + k];
         if (sec.ramped)
             for (int m = 0; m < 6; ++m)
+            {
                 sec.coeffs[m] = g.c[2 * m + k];
+                sec.delta[m] = g.d[2 * m + k];
+            }
     }
 }
 #endif
@@ -896,7 +931,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const auto u = static_cast<std::size_t>(j);
             list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1,
-                                                       rampStep[u].v, false};
+                                                       zeroRun.step.v, zeroRun.value.v, false};
             ramp = ramp || ramping[u];
         }
     }
@@ -913,18 +948,20 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
             for (int j = v.first; j < v.first + v.count; ++j, ++k)
             {
                 const auto u = static_cast<std::size_t>(j);
+                StretchSection& sec = list[static_cast<std::size_t>(k)];
                 if (!ramping[u])
                 {
-                    list[static_cast<std::size_t>(k)].coeffs = rampKnot[u].v;
+                    // Still: its values with zero steps (which stay zero).
+                    sec.coeffs = rampKnot[u].v;
                     continue;
                 }
                 if (rampCurClock[u] != clock)
-                {
                     rampCur[u] = rampValuesNow(j);
-                }
                 rampCurClock[u] = clock + len;
-                list[static_cast<std::size_t>(k)].coeffs = rampCur[u].v;
-                list[static_cast<std::size_t>(k)].ramped = true;
+                sec.coeffs = rampCur[u].value.v;
+                sec.delta = rampCur[u].step.v;
+                sec.curve = rampCurve[u].v;
+                sec.ramped = true;
             }
         }
     }

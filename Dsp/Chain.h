@@ -206,6 +206,7 @@ private:
         int pos = 0, len = 0;
         GlidePath path;
         double s = 0.0; // where along the path the last update left the section
+        double slope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0}; // d(folded values)/dn there
         SvfCoeffs target;
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
@@ -256,24 +257,32 @@ private:
     std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSectionSlots> coeffs{};
     std::array<PairCoeffs, kMaxSectionSlots> pairCoeffs{};
-    // While a section glides its values step linearly, sample by sample, from rampBase (exact
-    // values at the last update, clock rampStart) to rampKnot (exact values at the next).
-    // Not gliding: rampKnot holds its values and rampStep is zero. Any piece of the block
-    // replays the steps from rampBase, so the output does not depend on how blocks split.
+    // While a section glides its folded values follow a parabola from one update to the next,
+    // sample by sample: value += step, step += curve. It starts at rampBase (exact values at
+    // the last update, clock rampStart) with the path's own slope there and ends on rampKnot
+    // (exact values at the next update). Not gliding: rampKnot holds the values and the
+    // steps are zero. Any piece of a block replays the steps from rampBase, so the output
+    // does not depend on how blocks split.
+    struct RampRun
+    {
+        RampCoeffs value, step;
+    };
     std::array<RampCoeffs, kMaxSectionSlots> rampBase{};
-    std::array<RampCoeffs, kMaxSectionSlots> rampStep{};
+    std::array<RampCoeffs, kMaxSectionSlots> rampStep{};  // step at rampStart
+    std::array<RampCoeffs, kMaxSectionSlots> rampCurve{}; // per-sample change of the step
     std::array<RampCoeffs, kMaxSectionSlots> rampKnot{};
     std::array<long long, kMaxSectionSlots> rampStart{};
     std::array<bool, kMaxSectionSlots> ramping{};
-    // The stereo kernel's running values of a gliding section and the clock they hold for.
-    std::array<RampCoeffs, kMaxSectionSlots> rampCur{};
+    // The stereo kernels' running values of a gliding section and the clock they hold for.
+    std::array<RampRun, kMaxSectionSlots> rampCur{};
     std::array<long long, kMaxSectionSlots> rampCurClock{};
-    RampCoeffs rampValuesNow(int idx) const noexcept; // a section's values at `clock`
+    RampRun zeroRun{}; // steps of sections holding still inside a gliding stretch
+    RampRun rampValuesNow(int idx) const noexcept; // a section's values and step at `clock`
     // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
-    // 256-byte entry, laid out for one 256-bit register.
+    // 384-byte entry, laid out for one 256-bit register.
     struct alignas(32) GlidePairRoom
     {
-        double v[32];
+        double v[48];
     };
     std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
     void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;

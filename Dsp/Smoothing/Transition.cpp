@@ -116,6 +116,35 @@ SvfCoeffs GlidePath::coeffsAt(double s) const noexcept
     return fromNatural(at(s));
 }
 
+void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexcept
+{
+    const SvfNatural n = at(s);
+    // Each natural value and its derivative along s.
+    const double g = std::exp(n.logG), gs = g * (to.logG - from.logG);
+    const double k = std::exp(n.logK), ks = k * (to.logK - from.logK);
+    auto weightSlope = [&](double a, double b, bool log, double value, double logStep) {
+        return a == b ? 0.0 : log ? value * logStep : b - a;
+    };
+    const double mh = n.mHigh, mhs = weightSlope(from.mHigh, to.mHigh, logHigh, mh, logHighStep);
+    const double mb = n.mBand, mbs = to.mBand - from.mBand;
+    const double ml = n.mLow, mls = weightSlope(from.mLow, to.mLow, logLow, ml, logLowStep);
+    // As SvfCoeffs::updateDerived and the fold in Chain.cpp, in the same order.
+    const double a1 = 1.0 / (1.0 + g * (g + k));
+    const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
+    value[0] = a1;
+    value[1] = g * a1;
+    value[2] = g;
+    value[3] = mh;
+    value[4] = mb - mh * k;
+    value[5] = ml - mh;
+    slope[0] = a1s;
+    slope[1] = gs * a1 + g * a1s;
+    slope[2] = gs;
+    slope[3] = mhs;
+    slope[4] = mbs - mhs * k - mh * ks;
+    slope[5] = mls - mhs;
+}
+
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
 {
     if (!a.enabled || !b.enabled || !isSectionType(a.type) || a.type != b.type ||

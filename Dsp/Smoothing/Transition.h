@@ -50,6 +50,15 @@ constexpr double transitionCurve(double t) noexcept
     return t2 * t2 * (35.0 + t * (-84.0 + t * (70.0 - 20.0 * t)));
 }
 
+/// ds/dt of transitionCurve: 140 t^3 (1 - t)^3.
+constexpr double transitionSlope(double t) noexcept
+{
+    if (t <= 0.0 || t >= 1.0)
+        return 0.0;
+    const double a = t * (1.0 - t);
+    return 140.0 * a * a * a;
+}
+
 /// Length of a move in samples for a glide time (ms) at a rate: at least kMinTransitionMs,
 /// rounded up to whole update intervals.
 int transitionSamples(double glideMs, double sampleRateHz) noexcept;
@@ -87,6 +96,10 @@ struct GlidePath
     SvfNatural at(double s) const noexcept;
     /// Processing coefficients a fraction s of the way.
     SvfCoeffs coeffsAt(double s) const noexcept;
+    /// The folded kernel values (a1, a2, g, c0, c1, c2; Chain.cpp) a fraction s of the way
+    /// and their derivatives with respect to s, exact (chain rule through the exponentials
+    /// and a1 = 1 / (1 + g (g + k))).
+    void foldedAt(double s, double value[6], double slope[6]) const noexcept;
 };
 
 /// Whether a section stage may glide from settings a to b (same structure, moderate move:
