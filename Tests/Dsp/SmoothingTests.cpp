@@ -133,6 +133,55 @@ TEST_CASE("smoothing: glides move in the natural domain", "[smoothing]")
     CHECK_FALSE(sectionsCanGlide(a, off));
 }
 
+TEST_CASE("smoothing: a glide path's slope is the derivative of its values", "[smoothing]")
+{
+    // GlidePath::foldedAt gives the folded kernel values and their derivatives along the
+    // path (the parabolic steps start from them). Checked against central differences
+    // (error O(h^2); common practice) on paths between random designs of every gliding
+    // type, and its values against fromNatural(at(s)) folded as the kernels fold them.
+    std::mt19937 rng(777);
+    std::uniform_real_distribution<double> u(0.0, 1.0);
+    const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
+                               StageType::notch,   StageType::bandPass, StageType::tilt};
+    int checked = 0;
+    for (int trial = 0; trial < 300; ++trial)
+    {
+        StageSpec a;
+        a.type = types[trial % 6];
+        a.freqHz = 30.0 * std::pow(600.0, u(rng));
+        a.gainDb = -15.0 + 30.0 * u(rng);
+        a.q = 0.4 * std::pow(20.0, u(rng));
+        StageSpec b = a;
+        b.freqHz *= std::pow(2.0, 2.0 * u(rng) - 1.0);
+        b.gainDb += 12.0 * (2.0 * u(rng) - 1.0);
+        b.q *= std::pow(2.0, 2.0 * u(rng) - 1.0);
+        const auto da = designStage(a, kFs), db = designStage(b, kFs);
+        if (da.count != 1 || db.count != 1)
+            continue;
+        const GlidePath path(toNatural(toSvf(da.sections[0])), toNatural(toSvf(db.sections[0])));
+        for (const double s : {0.1, 0.37, 0.5, 0.81})
+        {
+            double v[6], d[6], vp[6], vm[6], unused[6];
+            path.foldedAt(s, v, d);
+            const double h = 1e-5;
+            path.foldedAt(s + h, vp, unused);
+            path.foldedAt(s - h, vm, unused);
+            const SvfCoeffs c = path.coeffsAt(s);
+            const double folded[6] = {
+                c.a1, c.a2, c.g, c.mHigh, c.mBand - c.mHigh * c.k, c.mLow - c.mHigh};
+            for (int m = 0; m < 6; ++m)
+            {
+                INFO("trial " << trial << ", s " << s << ", value " << m);
+                const double numeric = (vp[m] - vm[m]) / (2.0 * h);
+                CHECK(std::abs(d[m] - numeric) <= 1e-6 * (1.0 + std::abs(numeric)));
+                CHECK(std::abs(v[m] - folded[m]) <= 1e-14 * (1.0 + std::abs(folded[m])));
+            }
+        }
+        ++checked;
+    }
+    CHECK(checked > 200);
+}
+
 TEST_CASE("smoothing: the section form's state norm never grows under per-sample modulation",
           "[smoothing]")
 {
