@@ -11,6 +11,10 @@ namespace
 {
 const juce::Identifier kStateTag{"KerfState"};
 const juce::Identifier kStateVersionAttr{"stateVersion"};
+const juce::Identifier kSlotsTag{"CompareSlots"};
+const juce::Identifier kSlotTag{"Slot"};
+const juce::Identifier kActiveAttr{"active"};
+const juce::Identifier kSlotNameAttr{"name"};
 } // namespace
 
 KerfProcessor::KerfProcessor()
@@ -270,7 +274,24 @@ bool KerfProcessor::slotHolds(CompareSlot slot) const noexcept
 
 void KerfProcessor::storeSlot(CompareSlot slot)
 {
-    slots[static_cast<int>(slot)] = edits.capture();
+    auto values = edits.capture();
+    const juce::ScopedLock lock(slotLock);
+    slots[static_cast<int>(slot)] = std::move(values);
+}
+
+void KerfProcessor::setActive(CompareSlot slot)
+{
+    const juce::ScopedLock lock(slotLock);
+    active = slot;
+}
+
+void KerfProcessor::setSlots(std::optional<EditHistory::Values> a,
+                             std::optional<EditHistory::Values> b, CompareSlot activeSlot)
+{
+    const juce::ScopedLock lock(slotLock);
+    slots[0] = std::move(a);
+    slots[1] = std::move(b);
+    active = activeSlot;
 }
 
 bool KerfProcessor::recallSlot(CompareSlot slot)
@@ -281,8 +302,8 @@ bool KerfProcessor::recallSlot(CompareSlot slot)
     const auto before = active;
     edits.perform(
         juce::String("Recall ") + (slot == CompareSlot::a ? "A" : "B"), [&] { edits.apply(*held); },
-        [this, before] { active = before; }, [this, slot] { active = slot; });
-    active = slot;
+        [this, before] { setActive(before); }, [this, slot] { setActive(slot); });
+    setActive(slot);
     return true;
 }
 
@@ -298,19 +319,9 @@ void KerfProcessor::switchSlot()
     edits.perform(
         juce::String("Switch to ") + (other == CompareSlot::a ? "A" : "B"),
         [&] { edits.apply(*slots[static_cast<int>(other)]); },
-        [this, beforeActive, beforeA, beforeB]
-        {
-            active = beforeActive;
-            slots[0] = beforeA;
-            slots[1] = beforeB;
-        },
-        [this, other, afterA, afterB]
-        {
-            active = other;
-            slots[0] = afterA;
-            slots[1] = afterB;
-        });
-    active = other;
+        [this, beforeActive, beforeA, beforeB] { setSlots(beforeA, beforeB, beforeActive); },
+        [this, other, afterA, afterB] { setSlots(afterA, afterB, other); });
+    setActive(other);
 }
 
 namespace
@@ -383,8 +394,69 @@ void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)
 {
     auto tree = parameters.copyState();
     tree.setProperty(kStateVersionAttr, kStateVersion, nullptr);
-    if (auto xml = tree.createXml())
-        copyXmlToBinary(*xml, destData);
+    auto xml = tree.createXml();
+    if (xml == nullptr)
+        return;
+    // The comparison slots travel with the session, each parameter by its ID (plain value),
+    // so a later layout restores what it knows and defaults the rest.
+    std::optional<EditHistory::Values> held[2];
+    CompareSlot heldActive;
+    {
+        const juce::ScopedLock lock(slotLock);
+        held[0] = slots[0];
+        held[1] = slots[1];
+        heldActive = active;
+    }
+    if (held[0] || held[1])
+    {
+        auto* slotsXml = xml->createNewChildElement(kSlotsTag.toString());
+        slotsXml->setAttribute(kActiveAttr, heldActive == CompareSlot::a ? "A" : "B");
+        const auto& params = getParameters();
+        for (int k = 0; k < 2; ++k)
+        {
+            if (!held[k])
+                continue;
+            auto* slotXml = slotsXml->createNewChildElement(kSlotTag.toString());
+            slotXml->setAttribute(kSlotNameAttr, k == 0 ? "A" : "B");
+            for (int i = 0; i < params.size() && i < static_cast<int>(held[k]->size()); ++i)
+                if (auto* ranged = dynamic_cast<juce::RangedAudioParameter*>(params[i]))
+                {
+                    auto* e = slotXml->createNewChildElement("PARAM");
+                    e->setAttribute("id", ranged->getParameterID());
+                    e->setAttribute("value", static_cast<double>(ranged->convertFrom0to1(
+                                                 (*held[k])[static_cast<std::size_t>(i)])));
+                }
+        }
+    }
+    copyXmlToBinary(*xml, destData);
+}
+
+void KerfProcessor::restoreSlots(const juce::XmlElement& state)
+{
+    const auto* slotsXml = state.getChildByName(kSlotsTag);
+    if (slotsXml == nullptr)
+        return;
+    const auto& params = getParameters();
+    std::optional<EditHistory::Values> read[2];
+    for (const auto* slotXml : slotsXml->getChildWithTagNameIterator(kSlotTag.toString()))
+    {
+        const auto name = slotXml->getStringAttribute(kSlotNameAttr);
+        if (name != "A" && name != "B")
+            continue;
+        EditHistory::Values values(static_cast<std::size_t>(params.size()));
+        for (int i = 0; i < params.size(); ++i)
+        {
+            auto* ranged = dynamic_cast<juce::RangedAudioParameter*>(params[i]);
+            float v = params[i]->getDefaultValue();
+            if (ranged != nullptr)
+                if (const auto* e = slotXml->getChildByAttribute("id", ranged->getParameterID()))
+                    v = ranged->convertTo0to1(static_cast<float>(e->getDoubleAttribute("value")));
+            values[static_cast<std::size_t>(i)] = v;
+        }
+        read[name == "A" ? 0 : 1] = std::move(values);
+    }
+    setSlots(read[0], read[1],
+             slotsXml->getStringAttribute(kActiveAttr) == "B" ? CompareSlot::b : CompareSlot::a);
 }
 
 void KerfProcessor::resetToDefaults()
@@ -398,11 +470,9 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
 {
     stateProblem.clear();
     // A restored session (or the defaults that replace a damaged one) starts a fresh edit
-    // history and empty comparison slots.
+    // history, with the comparison slots it saved (or none).
     edits.clear();
-    slots[0].reset();
-    slots[1].reset();
-    active = CompareSlot::a;
+    setSlots({}, {}, CompareSlot::a);
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {
@@ -436,6 +506,7 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
             child.setProperty("value", p->convertFrom0to1(p->getDefaultValue()), nullptr);
     }
     parameters.replaceState(current);
+    restoreSlots(*xml);
 }
 
 } // namespace kerf

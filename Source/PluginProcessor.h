@@ -143,8 +143,15 @@ private:
     juce::String stateProblem;
     UserPresetFolder presetFolder;
     EditHistory edits{*this};
+    // Written on the message thread; read under the lock by getStateInformation, which
+    // some hosts call from another thread.
     std::optional<EditHistory::Values> slots[2];
     CompareSlot active = CompareSlot::a;
+    juce::CriticalSection slotLock;
+    void setSlots(std::optional<EditHistory::Values> a, std::optional<EditHistory::Values> b,
+                  CompareSlot activeSlot);
+    void setActive(CompareSlot slot);
+    void restoreSlots(const juce::XmlElement& state);
 
     JUCE_DECLARE_NON_COPYABLE_WITH_LEAK_DETECTOR(KerfProcessor)
 };

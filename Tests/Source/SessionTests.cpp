@@ -288,19 +288,18 @@ TEST_CASE("undo: a parameter edit, a preset load and an A/B switch each undo and
     edit(p, ids::slotQ(1), 3.0f);
     CHECK_FALSE(p.history().canRedo());
 
-    // A host restoring a session starts a fresh history with empty slots.
+    // A host restoring a session starts a fresh history (with the slots it saved).
     juce::MemoryBlock saved;
     p.getStateInformation(saved);
     p.setStateInformation(saved.getData(), static_cast<int>(saved.getSize()));
     CHECK_FALSE(p.history().canUndo());
-    CHECK_FALSE(p.slotHolds(CompareSlot::a));
-    CHECK_FALSE(p.slotHolds(CompareSlot::b));
+    CHECK_FALSE(p.history().canRedo());
 }
 
 TEST_CASE("A/B: store and recall keep and bring back the whole state", "[plugin][undo]")
 {
     // Common practice for comparison slots: recalling a slot restores every parameter to the
-    // value stored, output gain and protection included.
+    // value stored, output gain and protection included; a reopened session still has both.
     JuceGuard guard;
     KerfProcessor p;
     CHECK_FALSE(p.recallSlot(CompareSlot::b)); // empty
@@ -323,6 +322,26 @@ TEST_CASE("A/B: store and recall keep and bring back the whole state", "[plugin]
     CHECK(p.undo()); // the recall is a step
     CHECK(p.history().capture() == a);
     CHECK(p.activeSlot() == CompareSlot::a);
+
+    // Both slots and the active one are saved with the session and come back with it.
+    juce::MemoryBlock saved;
+    p.getStateInformation(saved);
+    KerfProcessor q;
+    q.setStateInformation(saved.getData(), static_cast<int>(saved.getSize()));
+    CHECK(q.lastStateProblem().isEmpty());
+    CHECK(q.history().capture() == a);
+    CHECK(q.activeSlot() == CompareSlot::a);
+    REQUIRE(q.slotHolds(CompareSlot::b));
+    q.switchSlot();
+    CHECK(q.history().capture() == b);
+    // A state saved before any slot was used (or by an older Kerf) restores no slots.
+    KerfProcessor fresh;
+    juce::MemoryBlock plain;
+    fresh.getStateInformation(plain);
+    q.setStateInformation(plain.getData(), static_cast<int>(plain.getSize()));
+    CHECK_FALSE(q.slotHolds(CompareSlot::a));
+    CHECK_FALSE(q.slotHolds(CompareSlot::b));
+    CHECK(q.activeSlot() == CompareSlot::a);
 }
 
 TEST_CASE("A/B: switching while audio runs is click-free", "[plugin][undo][smoothing]")
