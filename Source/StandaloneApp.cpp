@@ -2,7 +2,8 @@
 // audio input live on first start. Kerf is an effect: muting the input by default (JUCE's
 // choice, aimed at instruments and feedback loops) would leave a live rig silent. The
 // output protection stays on by default, and the user's own mute choice is remembered.
-// An "All flat" button sits in the title bar beside Options, always in reach on a live rig.
+// An "All flat" button sits in the title bar beside Options, always in reach on a live rig;
+// Ctrl+Z and Ctrl+Shift+Z undo and redo.
 #include "PluginProcessor.h"
 
 #include <juce_audio_utils/juce_audio_utils.h>
@@ -33,6 +34,27 @@ public:
         };
         juce::Component::addAndMakeVisible(flatButton);
         resized();
+    }
+
+    /// Ctrl+Z undoes the last edit, Ctrl+Shift+Z (or Ctrl+Y) redoes it (KerfProcessor).
+    bool keyPressed(const juce::KeyPress& key) override
+    {
+        auto* kerfProcessor = dynamic_cast<KerfProcessor*>(getAudioProcessor());
+        if (kerfProcessor == nullptr)
+            return false;
+        const auto command = juce::ModifierKeys::commandModifier;
+        if (key == juce::KeyPress('z', command, 0))
+        {
+            kerfProcessor->undo();
+            return true;
+        }
+        if (key == juce::KeyPress('z', command | juce::ModifierKeys::shiftModifier, 0) ||
+            key == juce::KeyPress('y', command, 0))
+        {
+            kerfProcessor->redo();
+            return true;
+        }
+        return juce::StandaloneFilterWindow::keyPressed(key);
     }
 
     void resized() override
