@@ -541,13 +541,17 @@ void ChainProcessor::update() noexcept
                     foldCoeffs(g.target, end);
                 }
                 rampBase[u] = rampKnot[u];
-                constexpr double kk = static_cast<double>(K) * static_cast<double>(K);
                 for (int m = 0; m < 6; ++m)
                 {
-                    // v(n) = base + slope n + alpha n^2: v(K) = end. Per sample: the step
-                    // v(n+1) - v(n) = slope + alpha (2n + 1), growing by 2 alpha.
-                    const double alpha = (end[m] - rampBase[u].v[m] - g.slope[m] * K) / kk;
-                    rampStep[u].v[m] = g.slope[m] + alpha;
+                    // The parabola v(n) = base + sigma n + alpha n^2 through both ends and the
+                    // midpoint of the cubic that matches the path's values and slopes at
+                    // both ends (Hermite: mid = (base + end) / 2 + K (slope0 - slope1) / 8):
+                    // alpha = (slope1 - slope0) / 2K, sigma = (end - base) / K - alpha K.
+                    // Per sample the step v(n+1) - v(n) = sigma + alpha (2n + 1) grows by
+                    // 2 alpha.
+                    const double alpha = (endSlope[m] - g.slope[m]) / (2.0 * K);
+                    const double sigma = (end[m] - rampBase[u].v[m]) / K - alpha * K;
+                    rampStep[u].v[m] = sigma + alpha;
                     rampCurve[u].v[m] = 2.0 * alpha;
                     rampKnot[u].v[m] = end[m];
                     g.slope[m] = endSlope[m];
