@@ -231,29 +231,9 @@ void ChainProcessor::setSectionCoeffs(int idx, const SvfCoeffs& c) noexcept
     rampKnot[i] = RampCoeffs{};
     foldCoeffs(c, rampKnot[i].v);
     spreadPairs(rampKnot[i].v, pairCoeffs[i]);
-    rampBase[i] = rampKnot[i];
-    rampStep[i] = RampCoeffs{};
-    rampCurve[i] = RampCoeffs{};
+    rampCubic[i] = RampCubic{};
+    rampCubic[i].c[0] = rampKnot[i];
     ramping[i] = false;
-}
-
-ChainProcessor::RampRun ChainProcessor::rampValuesNow(int idx) const noexcept
-{
-    const auto i = static_cast<std::size_t>(idx);
-    if (!ramping[i])
-        return {rampKnot[i], RampCoeffs{}};
-    if (rampCurClock[i] == clock)
-        return rampCur[i];
-    // The same additions, in the same order, as the kernels make sample by sample.
-    RampRun r{rampBase[i], rampStep[i]};
-    const long long steps = clock - rampStart[i];
-    for (long long n = 0; n < steps; ++n)
-        for (int m = 0; m < 6; ++m)
-        {
-            r.value.v[m] += r.step.v[m];
-            r.step.v[m] += rampCurve[i].v[m];
-        }
-    return r;
 }
 
 ChainProcessor::Voice ChainProcessor::makeVoice(int stage, const StageSpec& spec, int bank,
@@ -469,6 +449,7 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
 
 void ChainProcessor::update() noexcept
 {
+    lastUpdate = clock;
     if (hasPending)
     {
         hasPending = false;
@@ -540,25 +521,20 @@ void ChainProcessor::update() noexcept
                     g.s = 1.0;
                     foldCoeffs(g.target, end);
                 }
-                rampBase[u] = rampKnot[u];
+                // The Hermite cubic from here (exact values, the slope the last update
+                // found) to there: v(n) = b + s0 n + c2 n^2 + c3 n^3, v(K) = e, v'(K) = s1.
+                RampCubic& q = rampCubic[u];
                 for (int m = 0; m < 6; ++m)
                 {
-                    // The parabola v(n) = base + sigma n + alpha n^2 through both ends and the
-                    // midpoint of the cubic that matches the path's values and slopes at
-                    // both ends (Hermite: mid = (base + end) / 2 + K (slope0 - slope1) / 8):
-                    // alpha = (slope1 - slope0) / 2K, sigma = (end - base) / K - alpha K.
-                    // Per sample the step v(n+1) - v(n) = sigma + alpha (2n + 1) grows by
-                    // 2 alpha.
-                    const double alpha = (endSlope[m] - g.slope[m]) / (2.0 * K);
-                    const double sigma = (end[m] - rampBase[u].v[m]) / K - alpha * K;
-                    rampStep[u].v[m] = sigma + alpha;
-                    rampCurve[u].v[m] = 2.0 * alpha;
+                    const double b = rampKnot[u].v[m], s0 = g.slope[m];
+                    const double rise = end[m] - b - s0 * K, turn = endSlope[m] - s0;
+                    q.c[0].v[m] = b;
+                    q.c[1].v[m] = s0;
+                    q.c[2].v[m] = (3.0 * rise - turn * K) / (K * K);
+                    q.c[3].v[m] = (turn * K - 2.0 * rise) / (K * K * K);
                     rampKnot[u].v[m] = end[m];
                     g.slope[m] = endSlope[m];
                 }
-                rampStart[u] = clock;
-                rampCur[u] = {rampBase[u], rampStep[u]};
-                rampCurClock[u] = clock;
                 ramping[u] = true;
             }
         if (st.fading || st.queued || gliding)
@@ -596,33 +572,23 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
         {
             // Gliding: the folded form with its coefficients stepping linearly per sample
             // from the last update's values (the stereo kernel's arithmetic, one lane).
-            const RampRun now = rampValuesNow(j);
-            const double* c = now.value.v;
-            const double* d = now.step.v;
-            const double* dd = rampCurve[idx].v;
-            double a1 = c[0], a2 = c[1], g = c[2], c0 = c[3], c1 = c[4], c2 = c[5];
-            double d0 = d[0], d1 = d[1], d2 = d[2], d3 = d[3], d4 = d[4], d5 = d[5];
+            // Gliding: the folded form with its values on the section's cubic (the stereo
+            // kernels' arithmetic, one lane).
+            const RampCubic& q = rampCubic[idx];
+            const double n0 = static_cast<double>(clock - lastUpdate);
             double ic1 = s.ic1eq, ic2 = s.ic2eq;
             for (int n = 0; n < len; ++n)
             {
+                const double t = n0 + n;
+                double c[6];
+                for (int m = 0; m < 6; ++m)
+                    c[m] = q.c[0].v[m] + t * (q.c[1].v[m] + t * (q.c[2].v[m] + t * q.c[3].v[m]));
                 const double v0 = x[n];
-                const double v1 = a2 * (v0 - ic2) + a1 * ic1;
-                const double v2 = g * v1 + ic2;
+                const double v1 = c[1] * (v0 - ic2) + c[0] * ic1;
+                const double v2 = c[2] * v1 + ic2;
                 ic1 = 2.0 * v1 - ic1;
                 ic2 = 2.0 * v2 - ic2;
-                x[n] = c2 * v2 + (c1 * v1 + c0 * v0);
-                a1 += d0;
-                a2 += d1;
-                g += d2;
-                c0 += d3;
-                c1 += d4;
-                c2 += d5;
-                d0 += dd[0];
-                d1 += dd[1];
-                d2 += dd[2];
-                d3 += dd[3];
-                d4 += dd[4];
-                d5 += dd[5];
+                x[n] = c[5] * v2 + (c[4] * v1 + c[3] * v0);
             }
             s = {ic1, ic2};
         }
@@ -638,23 +604,20 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
 
 namespace
 {
-/// Two gliding sections side by side for the pair kernel: values {m_j, m_j+1} for each of
-/// a1, a2, g, c0, c1, c2, their per-sample steps and the steps' changes, and the integrator
-/// memories as lanes [left j, left j+1, right j, right j+1].
+/// Two gliding sections side by side for the pair kernel: for each power of n, the cubic's
+/// coefficients in three groups {a1_j, a1_j+1, a2_j, a2_j+1}, {g.., c0..}, {c1.., c2..},
+/// and the integrator memories as lanes [left j, left j+1, right j, right j+1].
 struct alignas(32) GlidePair
 {
-    double c[12], d[12], dd[12], s1[4], s2[4];
+    double q[4][12], s1[4], s2[4];
 };
 
 /// The stereo kernel's view of one section: coefficient lanes and state lanes, and while
 /// gliding the per-sample step of each coefficient.
 struct StretchSection
 {
-    double* coeffs;      // static: a1, a2, g, c0, c1, c2 as pairs; gliding: once each (8)
-    double* state;       // ic1, ic2 pairs
-    double* delta;       // gliding: the running per-sample steps of the values (8)
-    const double* curve; // gliding: the per-sample change of the steps (8)
-    bool ramped;         // gliding: coeffs and delta are the section's own (rampCur)
+    double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
+    double* state;  // ic1, ic2 pairs
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -671,25 +634,25 @@ struct StretchSection
         _mm_store_pd(st + 2, _mm_sub_pd(_mm_add_pd(v2, v2), ic2));                                 \
         v = MUL_ADD(COEF(5), v2, MUL_ADD(COEF(4), v1, _mm_mul_pd(COEF(3), v)));                    \
     }
-// Static sections keep each coefficient in both lanes; gliding ones keep it once and load
-// it into both lanes (movddup where the CPU has it).
+// Still sections keep each coefficient in both lanes.
 #define KERF_PAIR_COEF(m) _mm_load_pd(c + 2 * (m))
-#define KERF_ONCE_COEF_SSE2(m) _mm_load1_pd(c + (m))
-#define KERF_ONCE_COEF_SSE3(m) _mm_loaddup_pd(c + (m))
-
-/// The glide step: every value moves by its step, every step by its curve.
-#define KERF_RAMP_STEP_SSE2                                                                        \
+#define KERF_CUBIC_COEF(m) cf[m]
+#define KERF_NO_PREPARE
+/// Gliding sections: the coefficients at this sample from the section's cubic (Horner).
+#define KERF_CUBIC_PREPARE                                                                         \
+    __m128d cf[6];                                                                                 \
     {                                                                                              \
-        double* dl = sections[j].delta;                                                            \
-        const double* cv = sections[j].curve;                                                      \
+        const __m128d nn = _mm_set1_pd(n0 + n);                                                    \
         for (int m = 0; m < 6; m += 2)                                                             \
         {                                                                                          \
-            const __m128d step = _mm_load_pd(dl + m);                                              \
-            _mm_store_pd(c + m, _mm_add_pd(_mm_load_pd(c + m), step));                             \
-            _mm_store_pd(dl + m, _mm_add_pd(step, _mm_load_pd(cv + m)));                           \
+            __m128d q = _mm_load_pd(c + 24 + m);                                                   \
+            q = _mm_add_pd(_mm_mul_pd(q, nn), _mm_load_pd(c + 16 + m));                            \
+            q = _mm_add_pd(_mm_mul_pd(q, nn), _mm_load_pd(c + 8 + m));                             \
+            q = _mm_add_pd(_mm_mul_pd(q, nn), _mm_load_pd(c + m));                                 \
+            cf[m] = _mm_unpacklo_pd(q, q);                                                         \
+            cf[m + 1] = _mm_unpackhi_pd(q, q);                                                     \
         }                                                                                          \
     }
-#define KERF_NO_RAMP_STEP
 
 inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 {
@@ -701,7 +664,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 /// are independent, so the processor overlaps them instead of waiting on each section's
 /// recursion in turn; the fill and drain at the block's ends keep the result exact, with
 /// no added latency. `carry[j]` holds the sample waiting to enter section j.
-#define KERF_STRETCH_BODY(MUL_ADD, COEF, RAMP)                                                     \
+#define KERF_STRETCH_BODY(MUL_ADD, COEF, PREPARE)                                                  \
     const int last = count - 1;                                                                    \
     for (int t = 0; t < len + last; ++t)                                                           \
     {                                                                                              \
@@ -713,8 +676,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
             __m128d v = j == 0 ? _mm_set_pd(r[n], l[n]) : carry[j];                                \
             double* c = sections[j].coeffs;                                                        \
             double* st = sections[j].state;                                                        \
-            KERF_SECTION_STEP(MUL_ADD, COEF)                                                       \
-            RAMP if (j == last)                                                                    \
+            PREPARE KERF_SECTION_STEP(MUL_ADD, COEF) if (j == last)                                \
             {                                                                                      \
                 l[n] = _mm_cvtsd_f64(v);                                                           \
                 r[n] = _mm_cvtsd_f64(_mm_unpackhi_pd(v, v));                                       \
@@ -726,14 +688,15 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
 void stretchKernel(const StretchSection* sections, int count, double* l, double* r, int len,
                    __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(mulAdd, KERF_PAIR_COEF, KERF_NO_RAMP_STEP)
+    KERF_STRETCH_BODY(mulAdd, KERF_PAIR_COEF, KERF_NO_PREPARE)
 }
 
-/// The kernel while sections glide (coefficients step per sample).
-void stretchKernelRamp(const StretchSection* sections, int count, double* l, double* r, int len,
-                       __m128d* carry) noexcept
+/// The kernel while sections glide: coefficients from each section's cubic at sample n0 + n
+/// of its segment (processors without FMA; the pair kernel below otherwise).
+void stretchKernelCubic(const StretchSection* sections, int count, double* l, double* r, int len,
+                        __m128d* carry, double n0) noexcept
 {
-    KERF_STRETCH_BODY(mulAdd, KERF_ONCE_COEF_SSE2, KERF_RAMP_STEP_SSE2)
+    KERF_STRETCH_BODY(mulAdd, KERF_CUBIC_COEF, KERF_CUBIC_PREPARE)
 }
 
 #if defined(__x86_64__) && defined(__GNUC__)
@@ -745,20 +708,21 @@ __attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* s
                                                          double* l, double* r, int len,
                                                          __m128d* carry) noexcept
 {
-    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_PAIR_COEF, KERF_NO_RAMP_STEP)
+    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_PAIR_COEF, KERF_NO_PREPARE)
 }
 
 /// Gliding sections two at a time. The skewed order (section j works on sample t - j at
 /// step t) makes adjacent sections independent, so a pair shares one 256-bit register:
-/// lanes [left of j, left of j+1, right of j, right of j+1]. Each pair keeps its values
-/// side by side ({m_j, m_j+1} for each of a1, a2, g, c0, c1, c2), so one 128-bit broadcast
-/// gives a coefficient in all four lanes and one addition steps two sections' values. At
-/// the ends of the block a pair may have one section working and one idle (not yet
-/// started or finished): its lanes are kept as they were. cl[j], cr[j] hold the sample
-/// waiting to enter section j; an odd stretch ends with an identity section.
-__attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pairs, double* l,
-                                                          double* r, int len, double* cl,
-                                                          double* cr) noexcept
+/// lanes [left of j, left of j+1, right of j, right of j+1]. The pair's cubics are laid out
+/// in three groups of four ({a1_j, a1_j+1, a2_j, a2_j+1}, ...), so three Horner evaluations
+/// at [n_j, n_j+1, n_j, n_j+1] give all twelve values and a 128-bit lane copy gives each
+/// coefficient in all four lanes. At the ends of the block a pair may have one section
+/// working and one idle (not yet started or finished): its memories are kept as they were.
+/// cl[j], cr[j] hold the sample waiting to enter section j; an odd stretch ends with an
+/// identity section. n0: the samples since the cubics' start at the block's first sample.
+__attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
+                                                           double* r, int len, double* cl,
+                                                           double* cr, double n0) noexcept
 {
     const int last = 2 * pairs - 1;
     for (int j = 0; j <= 2 * pairs; ++j)
@@ -772,54 +736,43 @@ __attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pair
         }
         const int pHigh = std::min(pairs - 1, t >> 1);
         const int pLow = t - len <= 0 ? 0 : (t - len + 1) >> 1;
-        for (int p = pHigh; p >= pLow; --p)
+        // Sample index of sections 2p and 2p + 1 in their segment: n0 + t - 2p (- 1).
+        __m256d nv =
+            _mm256_sub_pd(_mm256_set1_pd(n0 + t - 2.0 * pHigh), _mm256_set_pd(1.0, 0.0, 1.0, 0.0));
+        const __m256d two = _mm256_set1_pd(2.0);
+        for (int p = pHigh; p >= pLow; --p, nv = _mm256_add_pd(nv, two))
         {
             GlidePair& g = w[p];
-            const double* c = g.c;
-#define KERF_BC(m) _mm256_broadcast_pd(reinterpret_cast<const __m128d*>(c + 2 * (m)))
+            __m256d grp[3];
+            for (int k = 0; k < 3; ++k)
+            {
+                __m256d q = _mm256_load_pd(g.q[3] + 4 * k);
+                q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[2] + 4 * k));
+                q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[1] + 4 * k));
+                grp[k] = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[0] + 4 * k));
+            }
+#define KERF_CF(m) _mm256_permute2f128_pd(grp[(m) / 2], grp[(m) / 2], (m) % 2 ? 0x11 : 0x00)
             const __m256d x = _mm256_insertf128_pd(_mm256_castpd128_pd256(_mm_load_pd(cl + 2 * p)),
                                                    _mm_load_pd(cr + 2 * p), 1);
             const __m256d ic1 = _mm256_load_pd(g.s1), ic2 = _mm256_load_pd(g.s2);
             const __m256d v3 = _mm256_sub_pd(x, ic2);
-            const __m256d v1 = _mm256_fmadd_pd(KERF_BC(1), v3, _mm256_mul_pd(KERF_BC(0), ic1));
-            const __m256d v2 = _mm256_fmadd_pd(KERF_BC(2), v1, ic2);
-            const __m256d n1 = _mm256_sub_pd(_mm256_add_pd(v1, v1), ic1);
-            const __m256d n2 = _mm256_sub_pd(_mm256_add_pd(v2, v2), ic2);
+            const __m256d v1 = _mm256_fmadd_pd(KERF_CF(1), v3, _mm256_mul_pd(KERF_CF(0), ic1));
+            const __m256d v2 = _mm256_fmadd_pd(KERF_CF(2), v1, ic2);
+            __m256d n1 = _mm256_sub_pd(_mm256_add_pd(v1, v1), ic1);
+            __m256d n2 = _mm256_sub_pd(_mm256_add_pd(v2, v2), ic2);
             const __m256d y = _mm256_fmadd_pd(
-                KERF_BC(5), v2, _mm256_fmadd_pd(KERF_BC(4), v1, _mm256_mul_pd(KERF_BC(3), x)));
-#undef KERF_BC
-            const __m256d c0 = _mm256_load_pd(g.c), c1 = _mm256_load_pd(g.c + 4),
-                          c2 = _mm256_load_pd(g.c + 8);
-            const __m256d d0 = _mm256_load_pd(g.d), d1 = _mm256_load_pd(g.d + 4),
-                          d2 = _mm256_load_pd(g.d + 8);
-            __m256d out[7] = {n1,
-                              n2,
-                              _mm256_add_pd(c0, d0),
-                              _mm256_add_pd(c1, d1),
-                              _mm256_add_pd(c2, d2),
-                              _mm256_add_pd(d0, _mm256_load_pd(g.dd)),
-                              _mm256_add_pd(d1, _mm256_load_pd(g.dd + 4))};
-            const __m256d d2n = _mm256_add_pd(d2, _mm256_load_pd(g.dd + 8));
+                KERF_CF(5), v2, _mm256_fmadd_pd(KERF_CF(4), v1, _mm256_mul_pd(KERF_CF(3), x)));
+#undef KERF_CF
             const bool lo = 2 * p > t - len; // section 2p works on a sample of this block
             const bool hi = 2 * p <= t - 1;  // section 2p + 1 does
             if (!(lo && hi))
             {
                 // Lanes 0 and 2 belong to section 2p, lanes 1 and 3 to 2p + 1.
-                const __m256d was[7] = {ic1, ic2, c0, c1, c2, d0, d1};
-                for (int q = 0; q < 7; ++q)
-                    out[q] = lo ? _mm256_blend_pd(was[q], out[q], 5)
-                                : _mm256_blend_pd(was[q], out[q], 10);
+                n1 = lo ? _mm256_blend_pd(ic1, n1, 5) : _mm256_blend_pd(ic1, n1, 10);
+                n2 = lo ? _mm256_blend_pd(ic2, n2, 5) : _mm256_blend_pd(ic2, n2, 10);
             }
-            _mm256_store_pd(g.s1, out[0]);
-            _mm256_store_pd(g.s2, out[1]);
-            _mm256_store_pd(g.c, out[2]);
-            _mm256_store_pd(g.c + 4, out[3]);
-            _mm256_store_pd(g.c + 8, out[4]);
-            _mm256_store_pd(g.d, out[5]);
-            _mm256_store_pd(g.d + 4, out[6]);
-            _mm256_store_pd(g.d + 8, lo && hi ? d2n
-                                     : lo     ? _mm256_blend_pd(d2, d2n, 5)
-                                              : _mm256_blend_pd(d2, d2n, 10));
+            _mm256_store_pd(g.s1, n1);
+            _mm256_store_pd(g.s2, n2);
             // Outputs of sections 2p and 2p + 1 wait for sections 2p + 1 and 2p + 2 (an idle
             // lane writes where nobody reads before it is written again).
             _mm_storeu_pd(cl + 2 * p + 1, _mm256_castpd256_pd128(y));
@@ -837,10 +790,9 @@ __attribute__((target("avx,fma"))) void pairRampKernelFma(GlidePair* w, int pair
 #undef KERF_STRETCH_BODY
 #undef KERF_SECTION_STEP
 #undef KERF_PAIR_COEF
-#undef KERF_ONCE_COEF_SSE2
-#undef KERF_ONCE_COEF_SSE3
-#undef KERF_RAMP_STEP_SSE2
-#undef KERF_NO_RAMP_STEP
+#undef KERF_CUBIC_COEF
+#undef KERF_CUBIC_PREPARE
+#undef KERF_NO_PREPARE
 #else
 #error "Kerf's processing kernels need SSE2 (x86-64); add a portable kernel for other CPUs."
 #endif
@@ -865,10 +817,9 @@ void ChainProcessor::allowFusedMultiplyAdd(bool allowed) noexcept
 
 #if defined(__x86_64__) && defined(__GNUC__)
 void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l, double* r,
-                                   int len) noexcept
+                                   int len, double n0) noexcept
 {
-    // Lay the stretch out pair by pair, run the pair kernel, and put the memories and the
-    // stepped values back (the values only matter for gliding sections: rampCur).
+    // Lay the stretch out pair by pair, run the pair kernel, put the memories back.
     const auto* list = static_cast<const StretchSection*>(sectionList);
     const int pairs = (count + 1) / 2;
     auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
@@ -876,46 +827,30 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
     {
         GlidePair& g = w[j / 2];
         const int k = j & 1;
-        if (j < count)
+        for (int m = 0; m < 6; ++m)
         {
-            const StretchSection& sec = list[j];
-            for (int m = 0; m < 6; ++m)
-            {
-                g.c[2 * m + k] = sec.coeffs[m];
-                g.d[2 * m + k] = sec.delta[m];
-                g.dd[2 * m + k] = sec.curve[m];
-            }
-            g.s1[k] = sec.state[0];
-            g.s1[2 + k] = sec.state[1];
-            g.s2[k] = sec.state[2];
-            g.s2[2 + k] = sec.state[3];
+            const int at = (m / 2) * 4 + (m % 2) * 2 + k;
+            for (int o = 0; o < 4; ++o)
+                // Past the stretch's end, an identity section: y = v0 exactly.
+                g.q[o][at] = j < count ? list[j].coeffs[8 * o + m] : (o == 0 && m == 3 ? 1.0 : 0.0);
         }
-        else
-        {
-            // Identity: y = v0 exactly, memories stay zero.
-            for (int m = 0; m < 6; ++m)
-                g.c[2 * m + k] = g.d[2 * m + k] = g.dd[2 * m + k] = 0.0;
-            g.c[2 * 3 + k] = 1.0;
-            g.s1[k] = g.s1[2 + k] = g.s2[k] = g.s2[2 + k] = 0.0;
-        }
+        const double* st = j < count ? list[j].state : nullptr;
+        g.s1[k] = st != nullptr ? st[0] : 0.0;
+        g.s1[2 + k] = st != nullptr ? st[1] : 0.0;
+        g.s2[k] = st != nullptr ? st[2] : 0.0;
+        g.s2[2 + k] = st != nullptr ? st[3] : 0.0;
     }
     alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
-    pairRampKernelFma(w, pairs, l, r, len, cl, cr);
+    pairCubicKernelFma(w, pairs, l, r, len, cl, cr, n0);
     for (int j = 0; j < count; ++j)
     {
         const GlidePair& g = w[j / 2];
         const int k = j & 1;
-        const StretchSection& sec = list[j];
-        sec.state[0] = g.s1[k];
-        sec.state[1] = g.s1[2 + k];
-        sec.state[2] = g.s2[k];
-        sec.state[3] = g.s2[2 + k];
-        if (sec.ramped)
-            for (int m = 0; m < 6; ++m)
-            {
-                sec.coeffs[m] = g.c[2 * m + k];
-                sec.delta[m] = g.d[2 * m + k];
-            }
+        double* st = list[j].state;
+        st[0] = g.s1[k];
+        st[1] = g.s1[2 + k];
+        st[2] = g.s2[k];
+        st[3] = g.s2[2 + k];
     }
 }
 #endif
@@ -934,15 +869,15 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         for (int j = v.first; j < v.first + v.count; ++j)
         {
             const auto u = static_cast<std::size_t>(j);
-            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1,
-                                                       zeroRun.step.v, zeroRun.value.v, false};
+            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1};
             ramp = ramp || ramping[u];
         }
     }
     if (count == 0)
         return;
-    // Gliding: the kernel steps each gliding section's running values in place (from where
-    // its ramp is at this sample); sections holding still take their values with zero steps.
+    // Gliding: every section of the stretch runs on its cubic (a constant for those holding
+    // still), evaluated at each sample.
+    const double n0 = static_cast<double>(clock - lastUpdate);
     if (ramp)
     {
         int k = 0;
@@ -950,23 +885,8 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const Voice& v = stages[static_cast<std::size_t>(s)].live;
             for (int j = v.first; j < v.first + v.count; ++j, ++k)
-            {
-                const auto u = static_cast<std::size_t>(j);
-                StretchSection& sec = list[static_cast<std::size_t>(k)];
-                if (!ramping[u])
-                {
-                    // Still: its values with zero steps (which stay zero).
-                    sec.coeffs = rampKnot[u].v;
-                    continue;
-                }
-                if (rampCurClock[u] != clock)
-                    rampCur[u] = rampValuesNow(j);
-                rampCurClock[u] = clock + len;
-                sec.coeffs = rampCur[u].value.v;
-                sec.delta = rampCur[u].step.v;
-                sec.curve = rampCurve[u].v;
-                sec.ramped = true;
-            }
+                list[static_cast<std::size_t>(k)].coeffs =
+                    rampCubic[static_cast<std::size_t>(j)].c[0].v;
         }
     }
     __m128d carry[kMaxSections];
@@ -974,15 +894,16 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
     if (hasFma())
     {
         if (ramp)
-        {
-            runGlidePairs(list.data(), count, l, r, len);
-            return;
-        }
-        stretchKernelFma(list.data(), count, l, r, len, carry);
+            runGlidePairs(list.data(), count, l, r, len, n0);
+        else
+            stretchKernelFma(list.data(), count, l, r, len, carry);
         return;
     }
 #endif
-    (ramp ? stretchKernelRamp : stretchKernel)(list.data(), count, l, r, len, carry);
+    if (ramp)
+        stretchKernelCubic(list.data(), count, l, r, len, carry, n0);
+    else
+        stretchKernel(list.data(), count, l, r, len, carry);
 }
 
 void ChainProcessor::addVoice(const Voice& v, const double* wIn, const double* wOut,

@@ -257,35 +257,29 @@ private:
     std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSectionSlots> coeffs{};
     std::array<PairCoeffs, kMaxSectionSlots> pairCoeffs{};
-    // While a section glides its folded values follow a parabola from one update to the next,
-    // sample by sample: value += step, step += curve. It starts at rampBase (exact values at
-    // the last update, clock rampStart) with the path's own slope there and ends on rampKnot
-    // (exact values at the next update). Not gliding: rampKnot holds the values and the
-    // steps are zero. Any piece of a block replays the steps from rampBase, so the output
-    // does not depend on how blocks split.
-    struct RampRun
+    // While a section glides, its folded values follow a cubic in n, the samples since the
+    // last update (lastUpdate): the Hermite cubic that starts on the path's exact values and
+    // slope there and ends on its exact values and slope at the next update (rampKnot), so
+    // values and slopes run on without a break. The kernels evaluate it at each sample
+    // (Horner), so any piece of a block gets the same values. Not gliding: rampKnot holds
+    // the values (the cubic is that constant).
+    struct RampCubic
     {
-        RampCoeffs value, step;
+        RampCoeffs c[4]; // value = c0 + n (c1 + n (c2 + n c3)), per folded value
     };
-    std::array<RampCoeffs, kMaxSectionSlots> rampBase{};
-    std::array<RampCoeffs, kMaxSectionSlots> rampStep{};  // step at rampStart
-    std::array<RampCoeffs, kMaxSectionSlots> rampCurve{}; // per-sample change of the step
+    std::array<RampCubic, kMaxSectionSlots> rampCubic{};
     std::array<RampCoeffs, kMaxSectionSlots> rampKnot{};
-    std::array<long long, kMaxSectionSlots> rampStart{};
     std::array<bool, kMaxSectionSlots> ramping{};
-    // The stereo kernels' running values of a gliding section and the clock they hold for.
-    std::array<RampRun, kMaxSectionSlots> rampCur{};
-    std::array<long long, kMaxSectionSlots> rampCurClock{};
-    RampRun zeroRun{}; // steps of sections holding still inside a gliding stretch
-    RampRun rampValuesNow(int idx) const noexcept; // a section's values and step at `clock`
+    long long lastUpdate = 0; // clock of the last update (where every running cubic starts)
     // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
-    // 384-byte entry, laid out for one 256-bit register.
+    // 448-byte entry, laid out for one 256-bit register.
     struct alignas(32) GlidePairRoom
     {
-        double v[48];
+        double v[56];
     };
     std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
-    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;
+    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len,
+                       double n0) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
