@@ -1,6 +1,7 @@
 #include "EditHistory.h"
 
 #include <algorithm>
+#include <utility>
 
 namespace kerf
 {

@@ -376,18 +376,24 @@ void KerfProcessor::applyEchoEstimate(const dsp::EchoEstimate& estimate)
         auto* p = parameters.getParameter(id);
         p->setValueNotifyingHost(p->convertTo0to1(value));
     };
-    for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
-    {
-        const bool found = k < static_cast<int>(estimate.reflections.size());
-        const auto* r = found ? &estimate.reflections[static_cast<std::size_t>(k)] : nullptr;
-        set(ids::echoDelay(k),
-            found ? static_cast<float>(r->delayMs) : 10.0f * static_cast<float>(k + 1));
-        set(ids::echoGain(k), found ? juce::jlimit(-kPluginEchoGainMax, kPluginEchoGainMax,
+    edits.perform("Apply echo fix",
+                  [&]
+                  {
+                      for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
+                      {
+                          const bool found = k < static_cast<int>(estimate.reflections.size());
+                          const auto* r =
+                              found ? &estimate.reflections[static_cast<std::size_t>(k)] : nullptr;
+                          set(ids::echoDelay(k), found ? static_cast<float>(r->delayMs)
+                                                       : 10.0f * static_cast<float>(k + 1));
+                          set(ids::echoGain(k),
+                              found ? juce::jlimit(-kPluginEchoGainMax, kPluginEchoGainMax,
                                                    static_cast<float>(r->gain))
                                     : 0.0f);
-    }
-    set(ids::echoMethod, 0.0f);
-    set(ids::echoOn, estimate.reflections.empty() ? 0.0f : 1.0f);
+                      }
+                      set(ids::echoMethod, 0.0f);
+                      set(ids::echoOn, estimate.reflections.empty() ? 0.0f : 1.0f);
+                  });
 }
 
 void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)
@@ -477,7 +483,7 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {
         stateProblem = "the saved state is not Kerf state; parameters reset to defaults";
-        DBG(stateProblem);
+        juce::Logger::writeToLog("Kerf: " + stateProblem);
         resetToDefaults();
         return;
     }
@@ -486,7 +492,7 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     {
         stateProblem = "the saved state comes from a newer Kerf (state version " +
                        juce::String(version) + "); parameters reset to defaults";
-        DBG(stateProblem);
+        juce::Logger::writeToLog("Kerf: " + stateProblem);
         resetToDefaults();
         return;
     }

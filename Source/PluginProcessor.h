@@ -116,10 +116,11 @@ public:
     std::int64_t takeProtectionCount() noexcept { return protection.takeTouchedCount(); }
     /// The "listen for room echo" action (message thread: start, cancel, take the proposal).
     EchoCapture& echoCapture() noexcept { return capture; }
-    /// Sets the echo parameters from an accepted estimate (message thread).
+    /// Sets the echo parameters from an accepted estimate (message thread; one undo step).
     void applyEchoEstimate(const dsp::EchoEstimate& estimate);
 
-    /// Why the last state restore fell back to defaults ("" when it did not).
+    /// Why the last state restore fell back to defaults ("" when it did not); the reason is
+    /// also written to juce::Logger (the host's log, or stderr).
     juce::String lastStateProblem() const { return stateProblem; }
 
 private:

@@ -1,5 +1,7 @@
 #include "UserPresets.h"
 
+#include <algorithm>
+
 namespace kerf
 {
 

@@ -87,8 +87,15 @@ TEST_CASE("plugin: older state fills missing parameters with defaults", "[plugin
 
 TEST_CASE("plugin: corrupt or foreign state gives defaults and a reason", "[plugin]")
 {
-    // Common practice: never crash on a damaged session.
+    // Common practice: never crash on a damaged session; the reason goes to the log
+    // (juce::Logger, which hosts and the standalone app route to their logs).
     JuceGuard guard;
+    struct Capture : juce::Logger
+    {
+        juce::StringArray lines;
+        void logMessage(const juce::String& message) override { lines.add(message); }
+    } log;
+    juce::Logger::setCurrentLogger(&log);
     KerfProcessor p;
     p.state().getParameter(ids::slotGain(2))->setValueNotifyingHost(0.8f);
     const char junk[] = "definitely not a plugin state";
@@ -97,6 +104,35 @@ TEST_CASE("plugin: corrupt or foreign state gives defaults and a reason", "[plug
     CHECK(p.state().getRawParameterValue(ids::slotGain(2))->load() == 0.0f);
     p.setStateInformation(nullptr, 0);
     CHECK(p.lastStateProblem().isNotEmpty());
+    juce::Logger::setCurrentLogger(nullptr);
+    REQUIRE(log.lines.size() == 2);
+    CHECK(log.lines[0].contains(p.lastStateProblem()));
+}
+
+TEST_CASE("plugin: text entry understands units and the k suffix", "[plugin]")
+{
+    // Issue examples for typed values: "2.5k", "-3 dB", "120 Hz"; and the forms the plugin
+    // itself displays ("1.25 kHz", "12.50 ms"), so a displayed value typed back is the same.
+    JuceGuard guard;
+    KerfProcessor p;
+    auto typed = [&p](const juce::String& id, const juce::String& text)
+    {
+        auto* param = p.state().getParameter(id);
+        return param->convertFrom0to1(param->getValueForText(text));
+    };
+    CHECK(typed(ids::slotFreq(0), "2.5k") == 2500.0f);
+    CHECK(typed(ids::slotFreq(0), "120 Hz") == 120.0f);
+    CHECK(typed(ids::slotFreq(0), "1.25 kHz") == 1250.0f);
+    CHECK(typed(ids::slotFreq(0), "440") == 440.0f);
+    CHECK(typed(ids::slotGain(0), "-3 dB") == -3.0f);
+    CHECK(typed(ids::slotGain(0), "4.5db") == 4.5f);
+    CHECK(typed(ids::outputGain, "-6.0 dB") == -6.0f);
+    CHECK(typed(ids::echoDelay(0), "12.50 ms") == 12.5f);
+    CHECK(typed(ids::glideMs, "35 ms") == 35.0f);
+    CHECK(typed(ids::comb(0, "pitch"), "220 Hz") == 220.0f);
+    // Out of range is held at the range's end.
+    CHECK(typed(ids::slotFreq(0), "90k") ==
+          p.state().getParameter(ids::slotFreq(0))->getNormalisableRange().end);
 }
 
 TEST_CASE("plugin: processing equals the Dsp chain and reports zero latency", "[plugin]")

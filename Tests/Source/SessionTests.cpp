@@ -283,6 +283,18 @@ TEST_CASE("undo: a parameter edit, a preset load and an A/B switch each undo and
     CHECK(p.history().capture() == start);
     CHECK(p.activeSlot() == CompareSlot::a);
 
+    // Applying an echo estimate ("Apply echo fix") is a step too.
+    const auto beforeEcho = p.history().capture();
+    dsp::EchoEstimate estimate;
+    estimate.reflections.push_back({});
+    estimate.reflections.back().delayMs = 6.0;
+    estimate.reflections.back().gain = 0.35;
+    p.applyEchoEstimate(estimate);
+    CHECK(valueOf(p, ids::echoOn) == 1.0f);
+    CHECK(p.history().undoName() == "Apply echo fix");
+    CHECK(p.undo());
+    CHECK(p.history().capture() == beforeEcho);
+
     // A new edit after undoing drops the steps that could have been redone.
     CHECK(p.redo());
     edit(p, ids::slotQ(1), 3.0f);
