@@ -472,6 +472,13 @@ void ChainProcessor::update() noexcept
         targetStages = n;
     }
     constexpr int K = kUpdateIntervalSamples;
+    struct Knot
+    {
+        int slot;
+        double dsdn; // ds/dn at the segment's end
+    };
+    std::array<Knot, kMaxSectionSlots> knots;
+    int numKnots = 0;
     movingStages = 0;
     anyActive = false;
     for (int i = 0; i < numStages; ++i)
@@ -504,42 +511,49 @@ void ChainProcessor::update() noexcept
                 }
                 gliding = true;
                 g.pos = std::min(g.pos + K, g.len);
-                // The segment to the next update: exact values and slope at its end, a
-                // parabola from here (exact values, the slope the last update found) to there.
-                double end[6], endSlope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
+                // The segment to the next update ends on the path's exact values and slope
+                // there: computed below, four sections at a time.
                 if (g.pos < g.len)
                 {
                     const double t = static_cast<double>(g.pos) / static_cast<double>(g.len);
                     g.s = transitionCurve(t);
-                    g.path.foldedAt(g.s, end, endSlope);
-                    const double dsdn = transitionSlope(t) / static_cast<double>(g.len);
-                    for (double& v : endSlope)
-                        v *= dsdn;
+                    knots[numKnots++] = {idx, transitionSlope(t) / static_cast<double>(g.len)};
                 }
                 else
                 {
                     g.s = 1.0;
+                    double end[6];
+                    const double still[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
                     foldCoeffs(g.target, end);
-                }
-                // The Hermite cubic from here (exact values, the slope the last update
-                // found) to there: v(n) = b + s0 n + c2 n^2 + c3 n^3, v(K) = e, v'(K) = s1.
-                RampCubic& q = rampCubic[u];
-                for (int m = 0; m < 6; ++m)
-                {
-                    const double b = rampKnot[u].v[m], s0 = g.slope[m];
-                    const double rise = end[m] - b - s0 * K, turn = endSlope[m] - s0;
-                    q.c[0].v[m] = b;
-                    q.c[1].v[m] = s0;
-                    q.c[2].v[m] = (3.0 * rise - turn * K) / (K * K);
-                    q.c[3].v[m] = (turn * K - 2.0 * rise) / (K * K * K);
-                    rampKnot[u].v[m] = end[m];
-                    g.slope[m] = endSlope[m];
+                    startCubic(idx, end, still);
                 }
                 ramping[u] = true;
             }
         if (st.fading || st.queued || gliding)
             ++movingStages;
         anyActive = anyActive || st.fading || st.live.kind != Voice::Kind::none;
+    }
+    // The knots' values and slopes, four sections at a time, and their segments' cubics.
+    for (int b = 0; b < numKnots; b += 4)
+    {
+        const int n = std::min(4, numKnots - b);
+        const GlidePath* paths[4];
+        double s[4], end[4][6], endSlope[4][6];
+        for (int i = 0; i < n; ++i)
+        {
+            const Glide& g =
+                glides[static_cast<std::size_t>(knots[static_cast<std::size_t>(b + i)].slot)];
+            paths[i] = &g.path;
+            s[i] = g.s;
+        }
+        foldedAtBatch(paths, s, n, end, endSlope);
+        for (int i = 0; i < n; ++i)
+        {
+            const Knot& kn = knots[static_cast<std::size_t>(b + i)];
+            for (double& v : endSlope[i])
+                v *= kn.dsdn;
+            startCubic(kn.slot, end[i], endSlope[i]);
+        }
     }
     // Stages the chain no longer has are dropped once they have faded out.
     while (numStages > targetStages)
@@ -549,6 +563,28 @@ void ChainProcessor::update() noexcept
             break;
         stages[static_cast<std::size_t>(--numStages)] = Stage{};
     }
+}
+
+void ChainProcessor::startCubic(int idx, const double end[6], const double endSlope[6]) noexcept
+{
+    // The Hermite cubic from here (exact values, the slope the last update found) to the
+    // next update: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
+    constexpr double K = kUpdateIntervalSamples;
+    const auto u = static_cast<std::size_t>(idx);
+    Glide& g = glides[u];
+    RampCubic& q = rampCubic[u];
+    for (int m = 0; m < 6; ++m)
+    {
+        const double b = rampKnot[u].v[m], s0 = g.slope[m];
+        const double rise = end[m] - b - s0 * K, turn = endSlope[m] - s0;
+        q.c[0].v[m] = b;
+        q.c[1].v[m] = s0;
+        q.c[2].v[m] = (3.0 * rise - turn * K) / (K * K);
+        q.c[3].v[m] = (turn * K - 2.0 * rise) / (K * K * K);
+        rampKnot[u].v[m] = end[m];
+        g.slope[m] = endSlope[m];
+    }
+    ramping[u] = true;
 }
 
 void ChainProcessor::runSections(int channel, int firstSection, int count, double* x,
@@ -570,8 +606,6 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
         }
         else
         {
-            // Gliding: the folded form with its coefficients stepping linearly per sample
-            // from the last update's values (the stereo kernel's arithmetic, one lane).
             // Gliding: the folded form with its values on the section's cubic (the stereo
             // kernels' arithmetic, one lane).
             const RampCubic& q = rampCubic[idx];

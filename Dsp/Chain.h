@@ -246,6 +246,7 @@ private:
     void startGlide(int stage, const StageSpec& spec) noexcept;
     void freezeGlides(const Voice& v) noexcept;
     void update() noexcept; // at every update point while something moves
+    void startCubic(int idx, const double end[6], const double endSlope[6]) noexcept;
     void runFading(int stage, int numChannels, int len) noexcept;
     void addVoice(const Voice& v, const double* wIn, const double* wOut, double* const* x,
                   double* const* acc, int numChannels, int len) noexcept;

@@ -5,6 +5,10 @@
 #include <algorithm>
 #include <cmath>
 
+#if defined(__x86_64__)
+#include <immintrin.h>
+#endif
+
 namespace kerf::dsp
 {
 
@@ -116,21 +120,39 @@ SvfCoeffs GlidePath::coeffsAt(double s) const noexcept
     return fromNatural(at(s));
 }
 
-void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexcept
+namespace
 {
-    const SvfNatural n = at(s);
-    // Each natural value and its derivative along s.
-    const double g = std::exp(n.logG), gs = g * (to.logG - from.logG);
-    const double k = std::exp(n.logK), ks = k * (to.logK - from.logK);
-    auto weightSlope = [&](double a, double b, bool log, double value, double logStep) {
-        return a == b ? 0.0 : log ? value * logStep : b - a;
+/// The weights' part of foldedAt (high and low outputs: constant, in dB or linear) and the
+/// folding of everything, given g, k, a1 and their derivatives.
+void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k, double ks,
+                     double a1, double a1s, double value[6], double slope[6]) noexcept
+{
+    const SvfNatural& a = p.from;
+    const SvfNatural& b = p.to;
+    auto weight = [s](double from, double to, bool log, double sign, double l0, double step,
+                      double& w, double& ws)
+    {
+        if (from == to)
+        {
+            w = from;
+            ws = 0.0;
+        }
+        else if (log)
+        {
+            w = sign * std::exp(l0 + s * step);
+            ws = w * step;
+        }
+        else
+        {
+            w = from + s * (to - from);
+            ws = to - from;
+        }
     };
-    const double mh = n.mHigh, mhs = weightSlope(from.mHigh, to.mHigh, logHigh, mh, logHighStep);
-    const double mb = n.mBand, mbs = to.mBand - from.mBand;
-    const double ml = n.mLow, mls = weightSlope(from.mLow, to.mLow, logLow, ml, logLowStep);
-    // As SvfCoeffs::updateDerived and the fold in Chain.cpp, in the same order.
-    const double a1 = 1.0 / (1.0 + g * (g + k));
-    const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
+    double mh, mhs, ml, mls;
+    weight(a.mHigh, b.mHigh, p.logHigh, p.signHigh, p.logHigh0, p.logHighStep, mh, mhs);
+    weight(a.mLow, b.mLow, p.logLow, p.signLow, p.logLow0, p.logLowStep, ml, mls);
+    const double mb = s <= 0.0 ? a.mBand : s >= 1.0 ? b.mBand : a.mBand + s * (b.mBand - a.mBand);
+    const double mbs = b.mBand - a.mBand;
     value[0] = a1;
     value[1] = g * a1;
     value[2] = g;
@@ -143,6 +165,107 @@ void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexc
     slope[3] = mhs;
     slope[4] = mbs - mhs * k - mh * ks;
     slope[5] = mls - mhs;
+}
+
+#if defined(__x86_64__) && defined(__GNUC__)
+/// e^x for four values (|x| < 700): x = n ln 2 + r with |r| <= ln 2 / 2 (Cody and Waite's
+/// two-part ln 2, fdlibm's constants, from memory), e^r by its Taylor series to r^12
+/// (truncation below 7e-15 relative), times 2^n built in the exponent bits.
+__attribute__((target("avx,fma"))) __m256d exp4(__m256d x) noexcept
+{
+    const __m256d n = _mm256_round_pd(_mm256_mul_pd(x, _mm256_set1_pd(1.4426950408889634)),
+                                      _MM_FROUND_TO_NEAREST_INT | _MM_FROUND_NO_EXC);
+    __m256d r = _mm256_fnmadd_pd(n, _mm256_set1_pd(6.93147180369123816490e-01), x);
+    r = _mm256_fnmadd_pd(n, _mm256_set1_pd(1.90821492927058770002e-10), r);
+    __m256d p = _mm256_set1_pd(1.0 / 479001600.0); // 1/12!
+    const double inv[12] = {
+        1.0 / 39916800.0, 1.0 / 3628800.0, 1.0 / 362880.0, 1.0 / 40320.0, 1.0 / 5040.0, 1.0 / 720.0,
+        1.0 / 120.0,      1.0 / 24.0,      1.0 / 6.0,      0.5,           1.0,          1.0};
+    for (double c : inv)
+        p = _mm256_fmadd_pd(p, r, _mm256_set1_pd(c));
+    const __m128i ni = _mm256_cvtpd_epi32(n);
+    const __m128i bias = _mm_set1_epi64x(1023);
+    const __m128i lo = _mm_slli_epi64(_mm_add_epi64(_mm_cvtepi32_epi64(ni), bias), 52);
+    const __m128i hi =
+        _mm_slli_epi64(_mm_add_epi64(_mm_cvtepi32_epi64(_mm_unpackhi_epi64(ni, ni)), bias), 52);
+    const __m256d scale =
+        _mm256_insertf128_pd(_mm256_castpd128_pd256(_mm_castsi128_pd(lo)), _mm_castsi128_pd(hi), 1);
+    return _mm256_mul_pd(p, scale);
+}
+
+__attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* s,
+                                                  int count, double (*value)[6],
+                                                  double (*slope)[6]) noexcept
+{
+    alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4];
+    for (int i = 0; i < 4; ++i)
+    {
+        const GlidePath& p = *paths[i < count ? i : 0];
+        const double si = std::clamp(s[i < count ? i : 0], 0.0, 1.0);
+        lg[i] = p.from.logG;
+        dg[i] = p.to.logG - p.from.logG;
+        lk[i] = p.from.logK;
+        dk[i] = p.to.logK - p.from.logK;
+        sv[i] = si;
+    }
+    const __m256d sv4 = _mm256_load_pd(sv);
+    const __m256d dg4 = _mm256_load_pd(dg), dk4 = _mm256_load_pd(dk);
+    const __m256d g = exp4(_mm256_fmadd_pd(sv4, dg4, _mm256_load_pd(lg)));
+    const __m256d k = exp4(_mm256_fmadd_pd(sv4, dk4, _mm256_load_pd(lk)));
+    const __m256d gs = _mm256_mul_pd(g, dg4), ks = _mm256_mul_pd(k, dk4);
+    const __m256d one = _mm256_set1_pd(1.0);
+    const __m256d a1 = _mm256_div_pd(one, _mm256_fmadd_pd(g, _mm256_add_pd(g, k), one));
+    // a1' = -a1^2 (2 g g' + g' k + g k')
+    const __m256d inner =
+        _mm256_fmadd_pd(g, ks, _mm256_mul_pd(gs, _mm256_add_pd(_mm256_add_pd(g, g), k)));
+    const __m256d a1s =
+        _mm256_mul_pd(_mm256_sub_pd(_mm256_setzero_pd(), _mm256_mul_pd(a1, a1)), inner);
+    alignas(32) double gv[4], gsv[4], kv[4], ksv[4], a1v[4], a1sv[4];
+    _mm256_store_pd(gv, g);
+    _mm256_store_pd(gsv, gs);
+    _mm256_store_pd(kv, k);
+    _mm256_store_pd(ksv, ks);
+    _mm256_store_pd(a1v, a1);
+    _mm256_store_pd(a1sv, a1s);
+    for (int i = 0; i < count; ++i)
+        foldWithWeights(*paths[i], sv[i], gv[i], gsv[i], kv[i], ksv[i], a1v[i], a1sv[i], value[i],
+                        slope[i]);
+}
+
+bool hasAvxFma() noexcept
+{
+    static const bool yes = __builtin_cpu_supports("avx") && __builtin_cpu_supports("fma");
+    return yes;
+}
+#endif
+} // namespace
+
+void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexcept
+{
+    // g, k and a1 = 1 / (1 + g (g + k)) with their derivatives along s (chain rule), then
+    // the weights and the fold as the kernels fold them.
+    const double sc = std::clamp(s, 0.0, 1.0);
+    const double g = std::exp(from.logG + sc * (to.logG - from.logG)),
+                 gs = g * (to.logG - from.logG);
+    const double k = std::exp(from.logK + sc * (to.logK - from.logK)),
+                 ks = k * (to.logK - from.logK);
+    const double a1 = 1.0 / (1.0 + g * (g + k));
+    const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
+    foldWithWeights(*this, sc, g, gs, k, ks, a1, a1s, value, slope);
+}
+
+void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, double (*value)[6],
+                   double (*slope)[6]) noexcept
+{
+#if defined(__x86_64__) && defined(__GNUC__)
+    if (count > 0 && hasAvxFma())
+    {
+        foldedAt4(paths, s, std::min(count, 4), value, slope);
+        return;
+    }
+#endif
+    for (int i = 0; i < std::min(count, 4); ++i)
+        paths[i]->foldedAt(s[i], value[i], slope[i]);
 }
 
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
