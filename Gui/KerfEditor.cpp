@@ -31,9 +31,25 @@ KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcesso
     for (auto* c : std::initializer_list<juce::Component*>{&listenButton, &applyButton,
                                                            &discardButton, &echoStatus})
         addAndMakeVisible(c);
+    undoButton.onClick = [this] { kerfProcessor.undo(); };
+    redoButton.onClick = [this] { kerfProcessor.redo(); };
+    compareButton.setTooltip("A/B: keeps these settings in the active slot and loads the other "
+                             "(at first a copy of these)");
+    compareButton.onClick = [this] { kerfProcessor.switchSlot(); };
+    flatButton.setTooltip("Switches every section, comb and echo stage off at once; output "
+                          "gain and protection stay (undo brings the stages back)");
+    flatButton.onClick = [this] { kerfProcessor.setAllFlat(); };
+    undoButton.setComponentID("undo");
+    redoButton.setComponentID("redo");
+    compareButton.setComponentID("compare");
+    flatButton.setComponentID("allFlat");
+    for (auto* c : std::initializer_list<juce::Component*>{&undoButton, &redoButton, &compareButton,
+                                                           &flatButton})
+        addAndMakeVisible(c);
+    updateSessionRow();
     setResizable(true, true);
-    setResizeLimits(480, 360, 2400, 1600);
-    setSize(760, 560);
+    setResizeLimits(480, 400, 2400, 1600);
+    setSize(760, 600);
     refreshResponse();
     updateEchoPanel();
     startTimerHz(30);
@@ -52,6 +68,13 @@ void KerfEditor::paint(juce::Graphics& g)
 void KerfEditor::resized()
 {
     auto area = getLocalBounds();
+    auto sessionRow = area.removeFromTop(34).reduced(4);
+    for (auto* b : {&undoButton, &redoButton, &compareButton})
+    {
+        b->setBounds(sessionRow.removeFromLeft(80));
+        sessionRow.removeFromLeft(6);
+    }
+    flatButton.setBounds(sessionRow.removeFromRight(100));
     auto echoRow = area.removeFromTop(34).reduced(4);
     listenButton.setBounds(echoRow.removeFromLeft(160));
     echoRow.removeFromLeft(6);
@@ -107,10 +130,21 @@ void KerfEditor::updateEchoPanel()
     discardButton.setEnabled(state != State::idle);
 }
 
+void KerfEditor::updateSessionRow()
+{
+    auto& history = kerfProcessor.history();
+    undoButton.setEnabled(history.canUndo());
+    redoButton.setEnabled(history.canRedo());
+    undoButton.setTooltip(history.canUndo() ? "Undo: " + history.undoName() : "Nothing to undo");
+    redoButton.setTooltip(history.canRedo() ? "Redo: " + history.redoName() : "Nothing to redo");
+    compareButton.setButtonText(kerfProcessor.activeSlot() == CompareSlot::a ? "A/B: A" : "A/B: B");
+}
+
 void KerfEditor::timerCallback()
 {
     refreshResponse();
     updateEchoPanel();
+    updateSessionRow();
     if (kerfProcessor.takeProtectionCount() > 0)
         protectionHoldFrames = 30;
     else if (protectionHoldFrames > 0)

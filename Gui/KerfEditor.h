@@ -39,6 +39,13 @@ private:
     juce::TextButton applyButton{"Apply echo fix"};
     juce::TextButton discardButton{"Discard"};
     juce::Label echoStatus;
+
+    // Session row: undo, redo, the A/B switch, all flat (KerfProcessor's API).
+    void updateSessionRow();
+    juce::TextButton undoButton{"Undo"};
+    juce::TextButton redoButton{"Redo"};
+    juce::TextButton compareButton{"A/B: A"};
+    juce::TextButton flatButton{"All flat"};
 };
 
 } // namespace kerf

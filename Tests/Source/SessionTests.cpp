@@ -619,3 +619,43 @@ TEST_CASE("bypass: the host's switch crossfades, never clicks", "[plugin][smooth
     // Bypass is the host's: not an undo step, not stored by A/B.
     CHECK_FALSE(bypassed.history().undoName().contains("Bypass"));
 }
+
+TEST_CASE("editor: undo, redo, A/B and all flat are buttons that reach the processor",
+          "[plugin][undo]")
+{
+    // Common practice for controls: a click on the button does what the processor function
+    // does. Clicks are delivered through JUCE's message loop, as a mouse click would be.
+    JuceGuard guard;
+    KerfProcessor p;
+    REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
+    REQUIRE(editor != nullptr);
+    auto button = [&editor](const char* id)
+    {
+        auto* b = dynamic_cast<juce::Button*>(editor->findChildWithID(id));
+        REQUIRE(b != nullptr);
+        return b;
+    };
+    auto click = [](juce::Button* b)
+    {
+        // The editor enables undo and redo from its timer (30 Hz): wait for it first.
+        for (int i = 0; i < 200 && !b->isEnabled(); ++i)
+            juce::MessageManager::getInstance()->runDispatchLoopUntil(10);
+        REQUIRE(b->isEnabled());
+        b->triggerClick();
+        juce::MessageManager::getInstance()->runDispatchLoopUntil(20);
+    };
+    const auto before = p.history().capture();
+    click(button("allFlat"));
+    CHECK(p.isAllFlat());
+    click(button("undo"));
+    CHECK(p.history().capture() == before);
+    click(button("redo"));
+    CHECK(p.isAllFlat());
+    click(button("compare"));
+    CHECK(p.activeSlot() == CompareSlot::b);
+    for (int i = 0; i < 200 && button("compare")->getButtonText() != "A/B: B"; ++i)
+        juce::MessageManager::getInstance()->runDispatchLoopUntil(10); // the editor's timer
+    CHECK(button("compare")->getButtonText() == "A/B: B");
+    CHECK(button("undo")->isEnabled());
+}
