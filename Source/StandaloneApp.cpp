@@ -77,7 +77,9 @@ public:
         juce::PropertiesFile::Options options;
         options.applicationName = getApplicationName();
         options.filenameSuffix = ".settings";
-        options.folderName = "~/.config";
+        // $XDG_CONFIG_HOME/kerf/Kerf.settings (beside the user presets); an absolute
+        // folder name is used as it is.
+        options.folderName = kerfConfigFolder().getFullPathName();
         appProperties.setStorageParameters(options);
     }
 

@@ -36,7 +36,7 @@ juce::String checkName(const juce::String& name)
 }
 } // namespace
 
-juce::File UserPresetFolder::defaultFolder()
+juce::File kerfConfigFolder()
 {
     // XDG Base Directory Specification 0.8: "If $XDG_CONFIG_HOME is either not set or empty,
     // a default equal to $HOME/.config should be used"; relative paths are to be ignored.
@@ -45,7 +45,12 @@ juce::File UserPresetFolder::defaultFolder()
         xdg.isNotEmpty() && juce::File::isAbsolutePath(xdg)
             ? juce::File(xdg)
             : juce::File::getSpecialLocation(juce::File::userHomeDirectory).getChildFile(".config");
-    return base.getChildFile("kerf").getChildFile("presets");
+    return base.getChildFile("kerf");
+}
+
+juce::File UserPresetFolder::defaultFolder()
+{
+    return kerfConfigFolder().getChildFile("presets");
 }
 
 UserPresetFolder::UserPresetFolder(juce::File folder) : dir(std::move(folder)) {}

@@ -6,6 +6,11 @@
 namespace kerf
 {
 
+/// Kerf's configuration folder: $XDG_CONFIG_HOME/kerf, or ~/.config/kerf when
+/// XDG_CONFIG_HOME is unset, empty or not an absolute path (XDG Base Directory
+/// Specification 0.8). User presets and the standalone app's settings live here.
+juce::File kerfConfigFolder();
+
 /// One user preset: the name stored in its chain file, and the file.
 struct UserPreset
 {
@@ -18,8 +23,7 @@ struct UserPreset
 class UserPresetFolder
 {
 public:
-    /// $XDG_CONFIG_HOME/kerf/presets, or ~/.config/kerf/presets when XDG_CONFIG_HOME is
-    /// unset, empty or not an absolute path (XDG Base Directory Specification 0.8).
+    /// kerfConfigFolder()/presets.
     static juce::File defaultFolder();
 
     /// A folder to work in (created when the first preset is saved).

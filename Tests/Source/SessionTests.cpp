@@ -99,6 +99,7 @@ TEST_CASE("user presets: the folder follows XDG_CONFIG_HOME", "[plugin][presets]
     const auto home = juce::File::getSpecialLocation(juce::File::userHomeDirectory);
     {
         ScopedEnv env("XDG_CONFIG_HOME", "/tmp/kerf-xdg-elsewhere");
+        CHECK(kerfConfigFolder() == juce::File("/tmp/kerf-xdg-elsewhere/kerf"));
         CHECK(UserPresetFolder::defaultFolder() ==
               juce::File("/tmp/kerf-xdg-elsewhere/kerf/presets"));
         KerfProcessor p;
@@ -106,6 +107,7 @@ TEST_CASE("user presets: the folder follows XDG_CONFIG_HOME", "[plugin][presets]
     }
     {
         ScopedEnv env("XDG_CONFIG_HOME", nullptr);
+        CHECK(kerfConfigFolder() == home.getChildFile(".config/kerf"));
         CHECK(UserPresetFolder::defaultFolder() == home.getChildFile(".config/kerf/presets"));
     }
     {
