@@ -646,8 +646,8 @@ struct alignas(32) GlidePair
     double q[4][12], s1[4], s2[4];
 };
 
-/// The stereo kernel's view of one section: coefficient lanes and state lanes, and while
-/// gliding the per-sample step of each coefficient.
+/// The stereo kernels' view of one section: its coefficients (lanes while still, its cubic
+/// while gliding) and its state lanes.
 struct StretchSection
 {
     double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
@@ -735,7 +735,7 @@ void stretchKernelCubic(const StretchSection* sections, int count, double* l, do
 
 #if defined(__x86_64__) && defined(__GNUC__)
 /// The same kernels with fused multiply-adds, for processors that have them (chosen once at
-/// run time; every such processor also has AVX, which the glide step uses). FMA rounds once
+/// run time; every such processor also has AVX, which the pair kernel uses). FMA rounds once
 /// where the plain kernel rounds twice, so results differ in the last bits between
 /// machines, never within one.
 __attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* sections, int count,

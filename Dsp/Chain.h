@@ -216,7 +216,7 @@ private:
         double a1[2], a2[2], g[2], c0[2], c1[2], c2[2];
     };
     /// A section's folded values once each (a1, a2, g, c0, c1, c2, then two zeros): the
-    /// form glides use, so that a per-sample step costs two vector additions.
+    /// form glides use (four of them, one per power of n, make a section's cubic).
     struct alignas(32) RampCoeffs
     {
         double v[8] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
