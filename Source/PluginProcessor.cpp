@@ -210,20 +210,36 @@ void KerfProcessor::setCurrentProgram(int index)
     const auto& presets = factoryPresets();
     if (!juce::isPositiveAndBelow(index, presets.size() + 1))
         return;
+    // Undo and redo of a program load also put the host's program number back.
+    const int before = currentProgram;
+    auto setProgram = [this](int program)
+    {
+        currentProgram = program;
+        updateHostDisplay(ChangeDetails().withProgramChanged(true));
+    };
     currentProgram = index;
-    importChain(index == 0 ? dsp::ChainSpec{} : presets[index - 1].chain,
-                "Load preset " + getProgramName(index));
+    loadChain(
+        index == 0 ? dsp::ChainSpec{} : presets[index - 1].chain,
+        "Load preset " + getProgramName(index), [setProgram, before] { setProgram(before); },
+        [setProgram, index] { setProgram(index); });
 }
 
 juce::String KerfProcessor::importChain(const dsp::ChainSpec& newChain,
                                         const juce::String& stepName)
+{
+    return loadChain(newChain, stepName, {}, {});
+}
+
+juce::String KerfProcessor::loadChain(const dsp::ChainSpec& newChain, const juce::String& stepName,
+                                      std::function<void()> undoExtra,
+                                      std::function<void()> redoExtra)
 {
     juce::String error;
     auto load = [&] { applyChainToParameters(newChain, parameters, error); };
     // An edit on the message thread is an undo step; a host thread (some hosts change
     // programs from one) changes the parameters without touching the history.
     if (juce::MessageManager::existsAndIsCurrentThread())
-        edits.perform(stepName, load);
+        edits.perform(stepName, load, std::move(undoExtra), std::move(redoExtra));
     else
         load();
     return error;

@@ -152,6 +152,8 @@ private:
     void setSlots(std::optional<EditHistory::Values> a, std::optional<EditHistory::Values> b,
                   CompareSlot activeSlot);
     void setActive(CompareSlot slot);
+    juce::String loadChain(const dsp::ChainSpec& chain, const juce::String& stepName,
+                           std::function<void()> undoExtra, std::function<void()> redoExtra);
     void restoreSlots(const juce::XmlElement& state);
 
     JUCE_DECLARE_NON_COPYABLE_WITH_LEAK_DETECTOR(KerfProcessor)

@@ -248,10 +248,13 @@ TEST_CASE("undo: a parameter edit, a preset load and an A/B switch each undo and
     const auto afterPreset = p.history().capture();
     REQUIRE(afterPreset != beforePreset);
     CHECK(p.history().undoName() == "Load preset " + p.getProgramName(3));
+    CHECK(p.getCurrentProgram() == 3);
     CHECK(p.undo());
     CHECK(p.history().capture() == beforePreset);
+    CHECK(p.getCurrentProgram() == 0); // the program number follows
     CHECK(p.redo());
     CHECK(p.history().capture() == afterPreset);
+    CHECK(p.getCurrentProgram() == 3);
 
     // An A/B switch: B starts as a copy of A, is edited, then the switch back to A is undone
     // and redone, slots and the active one included.
