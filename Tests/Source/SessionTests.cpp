@@ -3,7 +3,6 @@
 // and "all flat".
 #include "ChainFile.h"
 #include "Dsp/Splatter.h"
-#include "FactoryPresets.h"
 #include "PluginProcessor.h"
 #include "Response/SystemFunction.h"
 
