@@ -381,7 +381,7 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         startCrossfade(stage, spec, true);
         return;
     }
-    const int len = transitionSamples(glideMs_, sampleRate);
+    const int len = transitionSamples(std::max(glideMs_, kMinGlideMs), sampleRate);
     for (int j = 0; j < designed.count; ++j)
     {
         const int idx = st.live.first + j;

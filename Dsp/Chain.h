@@ -149,7 +149,8 @@ public:
     /// gain, Q and slope glide over the glide time; anything else crossfades. Stages whose
     /// settings did not change are untouched, and filter memories carry over.
     void setChain(const ChainSpec& chain) noexcept;
-    /// Glide and crossfade time, ms (0 = kMinTransitionMs; default kDefaultGlideMs).
+    /// Glide and crossfade time, ms (default kDefaultGlideMs; crossfades take at least
+    /// kMinTransitionMs, glides at least kMinGlideMs).
     void setGlideMs(double ms) noexcept;
     double glideMs() const noexcept { return glideMs_; }
     /// True while any stage glides, crossfades or waits for the next update.

@@ -28,7 +28,7 @@ Options:
                  from T seconds into IN on, the chain in FILE (repeatable, T ascending);
                  the change glides or crossfades exactly as in the plugin, no click
   --glide MS     glide and crossfade time of the switches, 0 - 1000 ms (20; 0 = the
-                 shortest clean move, 6 ms)
+                 shortest clean moves: 12 ms for glides, 6 ms for crossfades)
   --bits N       32 (default): 32-bit float, keeps values above full scale;
                  24 or 16: PCM with TPDF dither; clipped samples are counted and reported
 

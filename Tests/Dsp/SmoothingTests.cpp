@@ -510,7 +510,8 @@ namespace
 /// step away (frequency within an octave, gain within 12 dB, Q within a factor of two),
 /// kept inside the full ranges, so that every change glides. Kerf's processor (stereo,
 /// 512-sample blocks) or the direct-form comparator.
-std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds)
+std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
+                                double glideMs = kDefaultGlideMs)
 {
     std::mt19937 rng(seed);
     std::uniform_real_distribution<double> u(-1.0, 1.0);
@@ -534,6 +535,7 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds)
     }
     ChainProcessor p;
     p.prepare(kFs, 512, 2);
+    p.setGlideMs(glideMs);
     p.setChain(c);
     DirectFormChain df;
     df.set(c);
@@ -594,6 +596,11 @@ TEST_CASE("smoothing: splatter bar for glides (a hand moving every section every
     WARN("splatter, glides: Kerf " << kerf << " dBFS, direct form " << direct << " dBFS");
     CHECK(kerf <= -80.0);
     CHECK(direct >= kerf + 30.0);
+    // A glide time of 0 ("as fast as possible while still clean") stays clean too.
+    const double fastest =
+        kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0, 0.0), kFs, 0.25);
+    WARN("splatter, glides at glide time 0: Kerf " << fastest << " dBFS");
+    CHECK(fastest <= -80.0);
 }
 
 TEST_CASE("smoothing: splatter bar for comb and echo delay jumps", "[smoothing]")
