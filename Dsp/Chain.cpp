@@ -8,6 +8,7 @@
 #include <algorithm>
 #include <atomic>
 #include <cmath>
+#include <limits>
 
 #if defined(__SSE2__)
 #include <immintrin.h>
@@ -144,15 +145,7 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
 
 void ChainProcessor::reset() noexcept
 {
-    for (auto& s : pairState)
-        s = PairState{};
-    for (auto& channel : extraState)
-        for (auto& s : channel)
-            s.reset();
-    for (auto& e : echoPool)
-        e.reset();
-    for (auto& c : combPool)
-        c.reset();
+    clearMemories();
     // Moves in progress end at their targets at once: there is no sound left to click.
     ChainSpec target = hasPending ? pending : ChainSpec{};
     if (!hasPending)
@@ -1043,6 +1036,14 @@ void ChainProcessor::runFading(int stage, int nch, int len) noexcept
     st.fadePos += len;
 }
 
+namespace
+{
+/// Largest magnitude a stage's output may have before it counts as a runaway: +180 dBFS,
+/// far beyond any signal (common practice: no audio chain holds such values) and far
+/// below where double precision overflows.
+constexpr double kRunawayLevel = 1.0e9;
+} // namespace
+
 void ChainProcessor::runBlock(int nch, int len) noexcept
 {
     double* buf[kMaxChannels];
@@ -1057,92 +1058,194 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
                !(!stereo && s.live.channels == ChannelMode::side);
     };
 
+    // After each stage (or stretch of stages) a sample that is not a finite number, or so
+    // large that it cannot be audio (kRunawayLevel), means that stage ran away: it is
+    // silenced and the stage's memories are cleared at once, so no later stage hides it (an
+    // echo canceller's own guard would turn it into silence for as long as an earlier
+    // stage rings).
+    auto scrub = [&](int first, int end)
+    {
+        bool bad = false;
+        for (int ch = 0; ch < nch; ++ch)
+            for (int n = 0; n < len; ++n)
+            {
+                const bool ok = std::abs(buf[ch][n]) <= kRunawayLevel;
+                bad = bad || !ok;
+                buf[ch][n] = ok ? buf[ch][n] : 0.0;
+            }
+        if (bad)
+        {
+            clearStageMemories(first, end);
+            nonFinite.fetch_add(1, std::memory_order_relaxed);
+        }
+    };
+
     int i = 0;
     while (i < numStages)
     {
-        const Stage& st = stages[static_cast<std::size_t>(i)];
-        if (st.fading)
-        {
-            runFading(i, nch, len); // always within one update interval (processImpl)
-            ++i;
-            continue;
-        }
-        const Voice& v = st.live;
-        if (v.kind == Voice::Kind::none)
-        {
-            ++i;
-            continue;
-        }
-        if (v.kind != Voice::Kind::sections)
-        {
-            // Echo cancellers and combs work on every channel.
-            if (v.kind == Voice::Kind::echo)
-                echoPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
-            else
-                combPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
-            ++i;
-            continue;
-        }
-        const ChannelMode mode = v.channels;
-        if (mode == ChannelMode::both || !stereo)
-        {
-            if (!stereo && mode == ChannelMode::side)
-            {
-                ++i; // a mono signal has no side
-                continue;
-            }
-            // Consecutive stages on both channels run as one stretch of sections, whose
-            // section state lives at fixed per-stage positions.
-            int end = i;
-            while (end < numStages && stretchable(stages[static_cast<std::size_t>(end)]))
-                ++end;
-            if (nch == 2)
-                runStereoStretch(i, end, buf[0], buf[1], len);
-            else
-                for (int s = i; s < end; ++s)
-                    for (int ch = 0; ch < nch; ++ch)
-                        runSections(ch, stages[static_cast<std::size_t>(s)].live.first,
-                                    stages[static_cast<std::size_t>(s)].live.count, buf[ch], len);
-            i = end;
-            continue;
-        }
-
-        const int base = v.first;
-        switch (mode)
-        {
-        case ChannelMode::left:
-            runSections(0, base, v.count, buf[0], len);
-            break;
-        case ChannelMode::right:
-            runSections(1, base, v.count, buf[1], len);
-            break;
-        case ChannelMode::mid:
-        case ChannelMode::side:
-        {
-            double* l = buf[0];
-            double* r = buf[1];
-            for (int n = 0; n < len; ++n)
-            {
-                const double m = 0.5 * (l[n] + r[n]);
-                const double sd = 0.5 * (l[n] - r[n]);
-                l[n] = m;
-                r[n] = sd;
-            }
-            // The mid or side signal uses lane 0's memories.
-            runSections(0, base, v.count, mode == ChannelMode::mid ? l : r, len);
-            for (int n = 0; n < len; ++n)
-            {
-                const double m = l[n], sd = r[n];
-                l[n] = m + sd;
-                r[n] = m - sd;
-            }
-            break;
-        }
-        case ChannelMode::both:
-            break;
-        }
-        ++i;
+        const int first = i;
+        runUnit(i, nch, len, buf, stretchable);
+        if (i > first)
+            scrub(first, i);
     }
+}
+
+template <typename Stretchable>
+void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
+                             const Stretchable& stretchable) noexcept
+{
+    const bool stereo = nch >= 2;
+    const Stage& st = stages[static_cast<std::size_t>(i)];
+    if (st.fading)
+    {
+        runFading(i, nch, len); // always within one update interval (processImpl)
+        ++i;
+        return;
+    }
+    const Voice& v = st.live;
+    if (v.kind == Voice::Kind::none)
+    {
+        ++i;
+        return;
+    }
+    if (v.kind != Voice::Kind::sections)
+    {
+        // Echo cancellers and combs work on every channel.
+        if (v.kind == Voice::Kind::echo)
+            echoPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
+        else
+            combPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
+        ++i;
+        return;
+    }
+    const ChannelMode mode = v.channels;
+    if (mode == ChannelMode::both || !stereo)
+    {
+        if (!stereo && mode == ChannelMode::side)
+        {
+            ++i; // a mono signal has no side
+            return;
+        }
+        // Consecutive stages on both channels run as one stretch of sections, whose
+        // section state lives at fixed per-stage positions.
+        int end = i;
+        while (end < numStages && stretchable(stages[static_cast<std::size_t>(end)]))
+            ++end;
+        if (nch == 2)
+            runStereoStretch(i, end, buf[0], buf[1], len);
+        else
+            for (int s = i; s < end; ++s)
+                for (int ch = 0; ch < nch; ++ch)
+                    runSections(ch, stages[static_cast<std::size_t>(s)].live.first,
+                                stages[static_cast<std::size_t>(s)].live.count, buf[ch], len);
+        i = end;
+        return;
+    }
+
+    const int base = v.first;
+    switch (mode)
+    {
+    case ChannelMode::left:
+        runSections(0, base, v.count, buf[0], len);
+        break;
+    case ChannelMode::right:
+        runSections(1, base, v.count, buf[1], len);
+        break;
+    case ChannelMode::mid:
+    case ChannelMode::side:
+    {
+        double* l = buf[0];
+        double* r = buf[1];
+        for (int n = 0; n < len; ++n)
+        {
+            const double m = 0.5 * (l[n] + r[n]);
+            const double sd = 0.5 * (l[n] - r[n]);
+            l[n] = m;
+            r[n] = sd;
+        }
+        // The mid or side signal uses lane 0's memories.
+        runSections(0, base, v.count, mode == ChannelMode::mid ? l : r, len);
+        for (int n = 0; n < len; ++n)
+        {
+            const double m = l[n], sd = r[n];
+            l[n] = m + sd;
+            r[n] = m - sd;
+        }
+        break;
+    }
+    case ChannelMode::both:
+        break;
+    }
+    ++i;
+}
+
+void ChainProcessor::clearStageMemories(int first, int end) noexcept
+{
+    auto clearVoice = [this](const Voice& v)
+    {
+        switch (v.kind)
+        {
+        case Voice::Kind::none:
+            return;
+        case Voice::Kind::echo:
+            echoPool[static_cast<std::size_t>(v.pool)].reset();
+            return;
+        case Voice::Kind::comb:
+            combPool[static_cast<std::size_t>(v.pool)].reset();
+            return;
+        case Voice::Kind::sections:
+            for (int j = v.first; j < v.first + v.count; ++j)
+            {
+                pairState[static_cast<std::size_t>(j)] = PairState{};
+                for (auto& channel : extraState)
+                    channel[static_cast<std::size_t>(j)].reset();
+            }
+            return;
+        }
+    };
+    for (int i = first; i < end; ++i)
+    {
+        clearVoice(stages[static_cast<std::size_t>(i)].live);
+        clearVoice(stages[static_cast<std::size_t>(i)].out);
+    }
+}
+
+namespace
+{
+/// A finite sample of this type (false for NaN and both infinities; a double beyond the
+/// float range counts as infinite when the output is float).
+template <typename Sample> bool finiteAs(double v) noexcept
+{
+    return std::abs(v) <= static_cast<double>(std::numeric_limits<Sample>::max());
+}
+
+} // namespace
+
+template <typename Sample> bool silenceNonFinite(Sample* x, int n) noexcept
+{
+    bool bad = false;
+    for (int i = 0; i < n; ++i)
+    {
+        const bool ok = finiteAs<Sample>(static_cast<double>(x[i]));
+        bad = bad || !ok;
+        x[i] = ok ? x[i] : Sample(0);
+    }
+    return bad;
+}
+template bool silenceNonFinite<float>(float*, int) noexcept;
+template bool silenceNonFinite<double>(double*, int) noexcept;
+
+void ChainProcessor::clearMemories() noexcept
+{
+    for (auto& s : pairState)
+        s = PairState{};
+    for (auto& channel : extraState)
+        for (auto& s : channel)
+            s.reset();
+    for (auto& e : echoPool)
+        e.reset();
+    for (auto& c : combPool)
+        c.reset();
 }
 
 template <typename Sample>
@@ -1150,6 +1253,13 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
 {
     if (scratch.empty() || numSamples <= 0)
         return;
+    // Not a number or infinite in the input: processed as silence, and counted (one event
+    // per call), whatever the chain holds.
+    bool inputFault = false;
+    for (int ch = 0; ch < numChannels; ++ch)
+        inputFault = silenceNonFinite(channels[ch], numSamples) || inputFault;
+    if (inputFault)
+        nonFinite.fetch_add(1, std::memory_order_relaxed);
     started = true;
     if (!anyActive && !isMoving())
     {
@@ -1182,13 +1292,26 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
                     b[n] = static_cast<double>(x[n]);
             }
             runBlock(nch, len);
+            bool outputFault = false;
             for (int ch = 0; ch < nch; ++ch)
             {
                 const double* b = scratch.data() + static_cast<std::size_t>(ch) *
                                                        static_cast<std::size_t>(blockSize);
                 Sample* x = channels[ch] + start;
                 for (int n = 0; n < len; ++n)
-                    x[n] = static_cast<Sample>(b[n]);
+                {
+                    const bool ok = finiteAs<Sample>(b[n]);
+                    outputFault = outputFault || !ok;
+                    x[n] = ok ? static_cast<Sample>(b[n]) : Sample(0);
+                }
+            }
+            // A stage ran away (finite input cannot do that to a stable chain, but an
+            // enormous one can overflow): silence those samples, clear every memory so the
+            // next piece starts from rest, and count it.
+            if (outputFault)
+            {
+                clearMemories();
+                nonFinite.fetch_add(1, std::memory_order_relaxed);
             }
         }
         clock += len;

@@ -9,6 +9,7 @@
 #include "Stages/SvfSection.h"
 
 #include <array>
+#include <atomic>
 #include <cstddef>
 #include <string_view>
 #include <vector>
@@ -168,6 +169,11 @@ public:
     double sampleRateHz() const noexcept { return sampleRate; }
     /// Second-order sections currently running (all enabled stages).
     int activeSections() const noexcept;
+    /// Times Kerf met a sample that was not a finite number: in the input (a process call
+    /// whose input held any; processed as silence), or a stage that ran away (its output not
+    /// finite or beyond +180 dBFS: those samples silenced and that stage's memories cleared
+    /// at once). Neither ever reaches the output.
+    unsigned nonFiniteEvents() const noexcept { return nonFinite.load(std::memory_order_relaxed); }
 
 private:
     /// Section banks per stage: a crossfade runs the old and the new sections side by side.
@@ -300,7 +306,17 @@ private:
     bool started = false; // a sample was processed since prepare() / reset()
     long long clock = 0;  // samples processed since prepare() / reset()
     int movingStages = 0; // stages gliding or crossfading (recounted at every update)
+    std::atomic<unsigned> nonFinite{0};
+    void clearMemories() noexcept; // every filter memory to rest (settings and clock stay)
+    void clearStageMemories(int first, int end) noexcept; // stages [first, end) to rest
+    template <typename Stretchable>
+    void runUnit(int& i, int nch, int len, double* const* buf,
+                 const Stretchable& stretchable) noexcept;
 };
+
+/// Replaces every sample that is not a finite number (NaN, infinities) by silence; true when
+/// there was one (float and double).
+template <typename Sample> bool silenceNonFinite(Sample* x, int n) noexcept;
 
 /// Flushes denormals to zero on this thread for its lifetime (x86 SSE; no-op elsewhere).
 class ScopedNoDenormals

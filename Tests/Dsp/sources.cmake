@@ -7,4 +7,5 @@ list(APPEND KERF_DSP_TEST_SOURCES
   ${CMAKE_CURRENT_LIST_DIR}/CombTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/EchoCancellerTests.cpp
   ${CMAKE_CURRENT_LIST_DIR}/EchoEstimatorTests.cpp)
-list(APPEND KERF_DSP_TEST_SOURCES ${CMAKE_CURRENT_LIST_DIR}/SmoothingTests.cpp)
+list(APPEND KERF_DSP_TEST_SOURCES ${CMAKE_CURRENT_LIST_DIR}/SmoothingTests.cpp
+  ${CMAKE_CURRENT_LIST_DIR}/RobustnessTests.cpp)
