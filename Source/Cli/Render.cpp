@@ -71,6 +71,26 @@ struct TempFileGuard
 
 } // namespace
 
+namespace
+{
+/// Replaces samples that are not numbers (NaN, infinities) by silence; returns how many.
+juce::int64 silenceNonFinite(juce::AudioBuffer<float>& b, int n)
+{
+    juce::int64 count = 0;
+    for (int ch = 0; ch < b.getNumChannels(); ++ch)
+    {
+        float* x = b.getWritePointer(ch);
+        for (int i = 0; i < n; ++i)
+            if (!std::isfinite(x[i]))
+            {
+                x[i] = 0.0f;
+                ++count;
+            }
+    }
+    return count;
+}
+} // namespace
+
 int runRender(Args args)
 {
     const auto chainPath = args.option("--chain");
@@ -242,6 +262,7 @@ int runRender(Args args)
             }
         }
     }
+    juce::int64 nonFiniteInput = 0;         // input samples that were NaN or infinite
     std::vector<std::vector<double>> whole; // the input, when a non-causal stage needs it all
     if (hasNonCausal)
     {
@@ -257,6 +278,7 @@ int runRender(Args args)
                            " is truncated or damaged: it ends before the length its header states");
                 return kExitFailure;
             }
+            nonFiniteInput += silenceNonFinite(block, n);
             for (int ch = 0; ch < numChannels; ++ch)
                 for (int i = 0; i < n; ++i)
                     whole[static_cast<std::size_t>(ch)][static_cast<std::size_t>(done + i)] =
@@ -351,6 +373,8 @@ int runRender(Args args)
                        " is truncated or damaged: it ends before the length its header states");
             return kExitFailure;
         }
+        else
+            nonFiniteInput += silenceNonFinite(buffer, n);
         // The timeline: each switch is given to the chain at its own sample, where the
         // click-free layer takes it (at its next update, within 32 samples).
         for (int offset = 0; offset < n;)
@@ -422,6 +446,14 @@ int runRender(Args args)
     }
     temp.keep = true;
 
+    if (nonFiniteInput > 0)
+        std::cerr << "kerf: warning: " << nonFiniteInput
+                  << " input samples were not numbers (NaN or infinite); they were processed "
+                     "as silence\n";
+    if (chain.nonFiniteEvents() > 0)
+        std::cerr << "kerf: warning: a stage ran away " << chain.nonFiniteEvents()
+                  << " times (output beyond +180 dBFS or not a number); those samples were "
+                     "silenced and its memories cleared\n";
     if (bits != 32 && clipped > 0)
         std::cerr << "kerf: warning: " << clipped << " samples clipped at full scale in the "
                   << bits << "-bit output (lower the gain or write 32-bit float)\n";

@@ -7,6 +7,8 @@
 #include <catch2/catch.hpp>
 #include <juce_audio_formats/juce_audio_formats.h>
 
+#include <cmath>
+#include <limits>
 #include <random>
 
 using namespace kerf;
@@ -533,4 +535,48 @@ TEST_CASE("cli: a --switch timeline changes chains without splatter", "[cli][smo
                    "2:" + tmp["c.json"].getFullPathName()})
               .exitCode == 2);
     CHECK_FALSE(tmp["x.wav"].exists());
+}
+
+TEST_CASE("cli: render processes NaN and infinite input samples as silence and says so",
+          "[cli][robustness]")
+{
+    // Common practice: a damaged float file (NaN, infinities) must not produce a damaged
+    // output; the bad samples count as silence, with and without a non-causal stage (which
+    // runs over the whole file first), and the user is told how many there were.
+    TempDir tmp;
+    const double rate = 48000.0;
+    juce::AudioBuffer<float> in(2, 24000);
+    for (int i = 0; i < in.getNumSamples(); ++i)
+        for (int ch = 0; ch < 2; ++ch)
+            in.setSample(ch, i, 0.25f * std::sin(0.01f * static_cast<float>(i * (ch + 1))));
+    in.setSample(0, 1000, std::numeric_limits<float>::quiet_NaN());
+    in.setSample(1, 2000, std::numeric_limits<float>::infinity());
+    in.setSample(0, 3000, -std::numeric_limits<float>::infinity());
+    writeWav(tmp["bad.wav"], in, rate, 32);
+    tmp["live.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "peaking", "freq_hz": 500, "gain_db": 6, "q": 1},
+      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.9, "mix": 0.5},
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6, "gain": 0.5}]}]})");
+    tmp["offline.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "non_causal": true, "reflections": [{"delay_ms": 6, "gain": 1.2}]}]})");
+    for (const char* chainName : {"live.json", "offline.json"})
+    {
+        INFO(chainName);
+        const auto r =
+            runKerf({"render", tmp["bad.wav"].getFullPathName(), tmp["out.wav"].getFullPathName(),
+                     "--chain", tmp[chainName].getFullPathName()});
+        INFO(r.output);
+        REQUIRE(r.exitCode == 0);
+        CHECK(r.output.contains("3 input samples were not numbers"));
+        auto reader = openWav(tmp["out.wav"]);
+        juce::AudioBuffer<float> out(2, static_cast<int>(reader->lengthInSamples));
+        reader->read(&out, 0, out.getNumSamples(), 0, true, true);
+        bool finite = true;
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < out.getNumSamples(); ++i)
+                finite = finite && std::isfinite(out.getSample(ch, i));
+        CHECK(finite);
+        // Not silenced as a whole: the signal is still there after the bad samples.
+        CHECK(out.getMagnitude(0, 20000, 4000) > 0.05f);
+    }
 }
