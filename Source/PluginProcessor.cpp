@@ -77,6 +77,14 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
     const int numChannels = buffer.getNumChannels();
     for (int ch = getTotalNumInputChannels(); ch < numChannels; ++ch)
         buffer.clear(ch, 0, numSamples);
+    // Input that is not a number (NaN, infinities) counts as silence everywhere: in the
+    // chain, in the bypassed signal and in what the echo estimate hears.
+    bool nonFiniteInput = false;
+    for (int ch = 0; ch < numChannels; ++ch)
+        nonFiniteInput =
+            dsp::silenceNonFinite(buffer.getWritePointer(ch), numSamples) || nonFiniteInput;
+    if (nonFiniteInput)
+        nonFiniteBlocks.fetch_add(1, std::memory_order_relaxed);
 
     // The echo estimate listens to the input as it arrives, before any processing.
     capture.push(buffer.getArrayOfReadPointers(), getTotalNumInputChannels(), numSamples);

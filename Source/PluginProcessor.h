@@ -7,6 +7,7 @@
 #include "Stages/OutputProtection.h"
 #include "UserPresets.h"
 
+#include <atomic>
 #include <juce_audio_processors/juce_audio_processors.h>
 
 #include <optional>
@@ -114,6 +115,12 @@ public:
     juce::AudioProcessorValueTreeState& state() noexcept { return parameters; }
     /// Samples the output protection has changed since the last call.
     std::int64_t takeProtectionCount() noexcept { return protection.takeTouchedCount(); }
+    /// Blocks whose input held samples that were not numbers (processed as silence), plus the
+    /// times a stage of the chain ran away (silenced and cleared at once).
+    unsigned nonFiniteEvents() const noexcept
+    {
+        return nonFiniteBlocks.load(std::memory_order_relaxed) + chain.nonFiniteEvents();
+    }
     /// The "listen for room echo" action (message thread: start, cancel, take the proposal).
     EchoCapture& echoCapture() noexcept { return capture; }
     /// Sets the echo parameters from an accepted estimate (message thread; one undo step).
@@ -134,6 +141,7 @@ private:
     juce::AudioProcessorValueTreeState parameters;
     ParameterRefs refs;
     dsp::ChainProcessor chain;
+    std::atomic<unsigned> nonFiniteBlocks{0};
     dsp::ChainSpec snapshot; // reused every block: no allocation
     dsp::OutputProtection protection;
     EchoCapture capture;

@@ -190,6 +190,42 @@ TEST_CASE("plugin: output protection holds the ceiling", "[plugin]")
     CHECK(p.takeProtectionCount() > 0);
 }
 
+TEST_CASE("plugin: NaN and infinite input never reach the output, bypassed or not",
+          "[plugin][robustness]")
+{
+    // Common practice: a host or an upstream plugin may hand over NaN or infinities; with
+    // the output protection off, processing and bypassing alike give finite output, the
+    // bad samples count as silence and the processor counts the blocks.
+    JuceGuard guard;
+    KerfProcessor p;
+    p.setPlayConfigDetails(2, 2, 48000.0, 256);
+    p.state().getParameter(ids::protectOn)->setValueNotifyingHost(0.0f);
+    p.state().getParameter(ids::slotOn(0))->setValueNotifyingHost(1.0f);
+    p.prepareToPlay(48000.0, 256);
+    juce::AudioBuffer<float> buffer(2, 256);
+    juce::MidiBuffer midi;
+    bool finite = true;
+    for (int block = 0; block < 40; ++block)
+    {
+        if (block == 20) // bypassed from here (a crossfade, then the input itself)
+            p.getBypassParameter()->setValueNotifyingHost(1.0f);
+        for (int i = 0; i < 256; ++i)
+            for (int ch = 0; ch < 2; ++ch)
+                buffer.setSample(ch, i, 0.1f * std::sin(0.05f * static_cast<float>(i + ch)));
+        if (block % 5 == 1)
+        {
+            buffer.setSample(0, 7, std::numeric_limits<float>::quiet_NaN());
+            buffer.setSample(1, 100, std::numeric_limits<float>::infinity());
+        }
+        p.processBlock(buffer, midi);
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < 256; ++i)
+                finite = finite && std::isfinite(buffer.getSample(ch, i));
+    }
+    CHECK(finite);
+    CHECK(p.nonFiniteEvents() == 8u);
+}
+
 TEST_CASE("plugin: export then import of a chain restores the same chain", "[plugin]")
 {
     // Common practice: export/import round trip.
