@@ -30,10 +30,17 @@ constexpr int kWeightFrame = 2048;
 constexpr int kWeightHalf = 511;
 /// Refinement blocks for the activity mask, samples.
 constexpr std::size_t kMaskBlock = 2048;
+/// Largest distance, samples, between a cepstral peak and the delay refined from it (the peak's
+/// parabolic interpolation is good to a fraction of a sample on a true echo).
+constexpr double kMaxWander = 2.0;
 /// Cepstral peaks below this (Bonferroni) confidence are not examined at all.
 constexpr double kMinCepstralConfidence = 0.5;
 /// Most frames averaged into one cepstrum.
 constexpr double kMaxCepstrumFrames = 400.0;
+/// A candidate joins the model provisionally when its frames agree at least this share of the
+/// confidence threshold; the joint pass at the end applies the threshold itself (with the
+/// other reflections still uncancelled, a weaker one's frames agree less).
+constexpr double kProvisionalShare = 0.8;
 /// Candidates that refinement may turn down before the search stops.
 constexpr int kMaxRejections = 3;
 /// Local SNR, dB, from which a frequency bin takes part in the ripple fit (noise flattens the
@@ -299,10 +306,11 @@ double refineAll(Fit& fit, std::vector<Refl>& model, double minD, double maxD, i
 /// ringing) is there in some frames only: the median ignores those, where a least-squares fit
 /// over the whole excerpt would be pulled by them (common practice: median of local
 /// estimates as a robust location estimate).
-double refineRobust(Fit& fit, std::vector<Refl>& model, double minD, double maxD, int iterations)
+std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
+                                 int iterations)
 {
     constexpr std::size_t kRobustBlock = 4096;
-    double consistency = 0.0;
+    std::vector<double> consistency(model.size(), 0.0);
     for (int it = 0; it < iterations; ++it)
         for (std::size_t k = 0; k < model.size(); ++k)
         {
@@ -334,7 +342,6 @@ double refineRobust(Fit& fit, std::vector<Refl>& model, double minD, double maxD
             if (da.size() < 5)
                 return consistency;
             model[k].gain = std::clamp(model[k].gain + quantile(da, 0.5), -0.99, 0.99);
-            if (k + 1 == model.size())
             {
                 // Share of frames whose own estimate agrees with the median within half the
                 // gain: an echo is in every frame, the source's own correlation is not.
@@ -342,7 +349,7 @@ double refineRobust(Fit& fit, std::vector<Refl>& model, double minD, double maxD
                 const double m = quantile(da, 0.5);
                 for (double v : da)
                     agree += std::abs(v - m) < 0.5 * std::abs(model[k].gain);
-                consistency = static_cast<double>(agree) / static_cast<double>(da.size());
+                consistency[k] = static_cast<double>(agree) / static_cast<double>(da.size());
             }
             model[k].delaySamples = std::clamp(
                 model[k].delaySamples + std::clamp(quantile(dd, 0.5), -1.0, 1.0), minD, maxD);
@@ -915,20 +922,23 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             continue;
         }
         refineAll(fit, model, minD, maxD, 8, model.size() - 1);
-        const double consistency = refineRobust(fit, model, minD, maxD, 3);
-        EchoCancelSettings check;
-        for (const auto& m : model)
-            check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
-                m.delaySamples * 1e3 / sampleRateHz, m.gain};
-        check.interpolationOrder = order;
-        if (std::abs(model.back().gain) < opt.minGain || consistency < opt.confidenceThreshold ||
-            !checkEchoStability(check, sampleRateHz).stable)
+        const double consistency = refineRobust(fit, model, minD, maxD, 3).back();
+        // A refined delay held at an end of the searched range is not a peak inside it, and one
+        // that wandered away from the cepstral peak did not come from that peak's echo.
+        const bool atEdge =
+            model.back().delaySamples <= minD + 0.01 || model.back().delaySamples >= maxD - 0.01;
+        const bool wandered = std::abs(model.back().delaySamples - cand.delaySamples) > kMaxWander;
+        if (std::abs(model.back().gain) < opt.minGain ||
+            consistency < kProvisionalShare * opt.confidenceThreshold || atEdge || wandered)
         {
             // Not an echo after all (or not a usable one): keep it out of the next search
             // and try the next candidate, a few times at most.
             out.strongestRejectedConfidence =
                 std::max(out.strongestRejectedConfidence, consistency);
             rejected.push_back(model.back());
+            // The refinement may have moved away from the peak: keep the peak itself out too,
+            // or the next search finds it again.
+            rejected.push_back({cand.delaySamples, 0.0});
             model = before;
             if (++rejections >= kMaxRejections)
                 break;
@@ -936,6 +946,39 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             continue;
         }
         confidences.push_back(consistency);
+    }
+    // Joint pass: every reflection refined with all the others in the model, then the least
+    // consistent one below the threshold dropped, until all pass (a weaker reflection's own
+    // frames agree only once the others are cancelled too).
+    while (!model.empty())
+    {
+        refineAll(fit, model, minD, maxD, 8, 0);
+        confidences = refineRobust(fit, model, minD, maxD, 3);
+        EchoCancelSettings check;
+        for (const auto& m : model)
+            check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
+                m.delaySamples * 1e3 / sampleRateHz, m.gain};
+        check.interpolationOrder = order;
+        // An unusable (unstable) model loses its least consistent reflection.
+        const double bar =
+            checkEchoStability(check, sampleRateHz).stable ? opt.confidenceThreshold : INFINITY;
+        std::size_t worst = model.size();
+        double worstScore = INFINITY;
+        for (std::size_t k = 0; k < model.size(); ++k)
+        {
+            const double score = std::abs(model[k].gain) < opt.minGain ? -1.0 : confidences[k];
+            if (score < bar && score < worstScore)
+            {
+                worstScore = score;
+                worst = k;
+            }
+        }
+        if (worst == model.size())
+            break;
+        out.strongestRejectedConfidence =
+            std::max(out.strongestRejectedConfidence, confidences[worst]);
+        model.erase(model.begin() + static_cast<long>(worst));
+        confidences.erase(confidences.begin() + static_cast<long>(worst));
     }
     for (std::size_t k = 0; k < model.size(); ++k)
     {

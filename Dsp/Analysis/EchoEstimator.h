@@ -11,10 +11,16 @@
 //     removed), the exact inverse with Lagrange fractional delays runs on it, and
 //     Levenberg-Marquardt on gain and sub-sample delay minimises the output energy of the
 //     active blocks; then a robust pass takes the median of per-frame Gauss-Newton steps.
-//  3. Confidence: the share of frames whose own gain estimate agrees with the final one;
-//     candidates below the threshold or below minGain are set aside and the next is tried.
+//  3. Confidence: the share of frames whose own gain estimate agrees with the final one.
+//     A candidate joins the model provisionally when that share reaches 0.8 x the threshold,
+//     its gain reaches minGain, and its refined delay stays inside the searched range and
+//     within 2 samples of the cepstral peak; otherwise it is set aside (the peak's lag too)
+//     and the next is tried.
 //  4. Further reflections: cancel the found ones, re-take the cepstrum (band clear of the
 //     noise only), repeat.
+//  5. Joint pass: all reflections refined together, then the least consistent one below the
+//     threshold (or any, while the model's exact inverse is unstable) is dropped, until all
+//     pass.
 // Runs off the audio thread: allocates. FFTs through FFTW 3 (plans created under a mutex).
 #include "../Stages/EchoCanceller.h"
 
