@@ -1042,6 +1042,39 @@ namespace
 /// far beyond any signal (common practice: no audio chain holds such values) and far
 /// below where double precision overflows.
 constexpr double kRunawayLevel = 1.0e9;
+
+/// True when every sample is a number no larger in magnitude than `limit` (a read-only
+/// pass: the largest magnitude, and the sum of v - v, which is NaN exactly when some v is
+/// NaN or infinite).
+bool allWithin(const double* x, int n, double limit) noexcept
+{
+#if defined(__SSE2__)
+    const __m128d signMask = _mm_set1_pd(-0.0);
+    __m128d most = _mm_setzero_pd(), odd = _mm_setzero_pd();
+    int i = 0;
+    for (; i + 2 <= n; i += 2)
+    {
+        const __m128d v = _mm_loadu_pd(x + i);
+        most = _mm_max_pd(most, _mm_andnot_pd(signMask, v));
+        odd = _mm_add_pd(odd, _mm_sub_pd(v, v));
+    }
+    alignas(16) double m[2], o[2];
+    _mm_store_pd(m, most);
+    _mm_store_pd(o, odd);
+    double largest = std::max(m[0], m[1]), nan = o[0] + o[1];
+    for (; i < n; ++i)
+    {
+        largest = std::max(largest, std::abs(x[i]));
+        nan += x[i] - x[i];
+    }
+    return largest <= limit && nan == 0.0;
+#else
+    for (int i = 0; i < n; ++i)
+        if (!(std::abs(x[i]) <= limit))
+            return false;
+    return true;
+#endif
+}
 } // namespace
 
 void ChainProcessor::runBlock(int nch, int len) noexcept
@@ -1067,31 +1100,27 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
     {
         bool bad = false;
         for (int ch = 0; ch < nch; ++ch)
+            bad = bad || !allWithin(buf[ch], len, kRunawayLevel);
+        if (!bad)
+            return;
+        for (int ch = 0; ch < nch; ++ch)
             for (int n = 0; n < len; ++n)
-            {
-                const bool ok = std::abs(buf[ch][n]) <= kRunawayLevel;
-                bad = bad || !ok;
-                buf[ch][n] = ok ? buf[ch][n] : 0.0;
-            }
-        if (bad)
-        {
-            clearStageMemories(first, end);
-            nonFinite.fetch_add(1, std::memory_order_relaxed);
-        }
+                buf[ch][n] = std::abs(buf[ch][n]) <= kRunawayLevel ? buf[ch][n] : 0.0;
+        clearStageMemories(first, end);
+        nonFinite.fetch_add(1, std::memory_order_relaxed);
     };
 
     int i = 0;
     while (i < numStages)
     {
         const int first = i;
-        runUnit(i, nch, len, buf, stretchable);
-        if (i > first)
+        if (runUnit(i, nch, len, buf, stretchable))
             scrub(first, i);
     }
 }
 
 template <typename Stretchable>
-void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
+bool ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
                              const Stretchable& stretchable) noexcept
 {
     const bool stereo = nch >= 2;
@@ -1100,13 +1129,13 @@ void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
     {
         runFading(i, nch, len); // always within one update interval (processImpl)
         ++i;
-        return;
+        return true;
     }
     const Voice& v = st.live;
     if (v.kind == Voice::Kind::none)
     {
         ++i;
-        return;
+        return false;
     }
     if (v.kind != Voice::Kind::sections)
     {
@@ -1116,7 +1145,7 @@ void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
         else
             combPool[static_cast<std::size_t>(v.pool)].process(buf, nch, len);
         ++i;
-        return;
+        return true;
     }
     const ChannelMode mode = v.channels;
     if (mode == ChannelMode::both || !stereo)
@@ -1124,7 +1153,7 @@ void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
         if (!stereo && mode == ChannelMode::side)
         {
             ++i; // a mono signal has no side
-            return;
+            return false;
         }
         // Consecutive stages on both channels run as one stretch of sections, whose
         // section state lives at fixed per-stage positions.
@@ -1139,7 +1168,7 @@ void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
                     runSections(ch, stages[static_cast<std::size_t>(s)].live.first,
                                 stages[static_cast<std::size_t>(s)].live.count, buf[ch], len);
         i = end;
-        return;
+        return true;
     }
 
     const int base = v.first;
@@ -1177,6 +1206,7 @@ void ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
         break;
     }
     ++i;
+    return true;
 }
 
 void ChainProcessor::clearStageMemories(int first, int end) noexcept
@@ -1221,16 +1251,47 @@ template <typename Sample> bool finiteAs(double v) noexcept
 
 } // namespace
 
+namespace
+{
+/// True when every sample is a number (v - v is 0 for every finite v and NaN otherwise; a
+/// read-only pass, four or two lanes at a time).
+bool allFinite(const float* x, int n) noexcept
+{
+#if defined(__SSE2__)
+    __m128 odd = _mm_setzero_ps();
+    int i = 0;
+    for (; i + 4 <= n; i += 4)
+    {
+        const __m128 v = _mm_loadu_ps(x + i);
+        odd = _mm_add_ps(odd, _mm_sub_ps(v, v));
+    }
+    alignas(16) float o[4];
+    _mm_store_ps(o, odd);
+    float sum = (o[0] + o[1]) + (o[2] + o[3]);
+    for (; i < n; ++i)
+        sum += x[i] - x[i];
+    return sum == 0.0f;
+#else
+    for (int i = 0; i < n; ++i)
+        if (!std::isfinite(x[i]))
+            return false;
+    return true;
+#endif
+}
+
+bool allFinite(const double* x, int n) noexcept
+{
+    return allWithin(x, n, std::numeric_limits<double>::max());
+}
+} // namespace
+
 template <typename Sample> bool silenceNonFinite(Sample* x, int n) noexcept
 {
-    bool bad = false;
+    if (allFinite(x, n))
+        return false;
     for (int i = 0; i < n; ++i)
-    {
-        const bool ok = finiteAs<Sample>(static_cast<double>(x[i]));
-        bad = bad || !ok;
-        x[i] = ok ? x[i] : Sample(0);
-    }
-    return bad;
+        x[i] = finiteAs<Sample>(static_cast<double>(x[i])) ? x[i] : Sample(0);
+    return true;
 }
 template bool silenceNonFinite<float>(float*, int) noexcept;
 template bool silenceNonFinite<double>(double*, int) noexcept;

@@ -309,8 +309,10 @@ private:
     std::atomic<unsigned> nonFinite{0};
     void clearMemories() noexcept; // every filter memory to rest (settings and clock stay)
     void clearStageMemories(int first, int end) noexcept; // stages [first, end) to rest
+    /// Runs stage i (or the stretch of section stages from i) and moves i past it; false
+    /// when there was nothing to run.
     template <typename Stretchable>
-    void runUnit(int& i, int nch, int len, double* const* buf,
+    bool runUnit(int& i, int nch, int len, double* const* buf,
                  const Stretchable& stretchable) noexcept;
 };
 
