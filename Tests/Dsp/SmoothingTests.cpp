@@ -341,6 +341,25 @@ TEST_CASE("smoothing: the processor stays finite and decays under random moves a
     CHECK(latePeak < 1e-6 * excitedPeak);
 }
 
+/// Samples [start, next) of `out` (left; `r` right) through Kerf's processor in 512-sample
+/// blocks, or through the direct-form comparator (left only).
+void renderSpan(bool kerfLayer, ChainProcessor& p, DirectFormChain& df, std::vector<double>& out,
+                std::vector<double>& r, int start, int next)
+{
+    for (int b = start; b < next; b += 512)
+    {
+        const int len = std::min(512, next - b);
+        if (kerfLayer)
+        {
+            double* ch[2] = {out.data() + b, r.data() + b};
+            p.process(ch, 2, len);
+        }
+        else
+            for (int i = b; i < b + len; ++i)
+                out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
+    }
+}
+
 namespace
 {
 /// Renders the splatter test: the tone through 8 sections whose settings jump at random
@@ -374,18 +393,7 @@ std::vector<double> renderJumps(bool kerfLayer, unsigned seed, double seconds)
             p.setChain(c);
             df.set(c);
         }
-        for (int b = start; b < next; b += 512)
-        {
-            const int len = std::min(512, next - b);
-            if (kerfLayer)
-            {
-                double* ch[2] = {out.data() + b, r.data() + b};
-                p.process(ch, 2, len);
-            }
-            else
-                for (int i = b; i < b + len; ++i)
-                    out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
-        }
+        renderSpan(kerfLayer, p, df, out, r, start, next);
         start = next;
     }
     return out;
@@ -560,18 +568,7 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
             p.setChain(c);
             df.set(c);
         }
-        for (int b = start; b < next; b += 512)
-        {
-            const int len = std::min(512, next - b);
-            if (kerfLayer)
-            {
-                double* ch[2] = {out.data() + b, r.data() + b};
-                p.process(ch, 2, len);
-            }
-            else
-                for (int i = b; i < b + len; ++i)
-                    out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
-        }
+        renderSpan(kerfLayer, p, df, out, r, start, next);
         start = next;
     }
     return out;
