@@ -196,8 +196,8 @@ juce::String readEchoStage(const juce::DynamicObject& obj, const juce::String& w
         if (s.nonCausal && s.echo.method != dsp::EchoMethod::exact)
             return where + ", field 'non_causal': only the exact method runs backwards in time";
     }
-    if (auto err = readEnabled(obj, where, s.enabled); err.isNotEmpty())
-        return err;
+    if (auto enabledError = readEnabled(obj, where, s.enabled); enabledError.isNotEmpty())
+        return enabledError;
     return {};
 }
 
@@ -243,8 +243,8 @@ juce::String readCombStage(const juce::DynamicObject& obj, const juce::String& w
         err = readRanged(obj, "mix", 0.0, 1.0, 1.0, where, c.mix);
     if (err.isNotEmpty())
         return err;
-    if (auto err = readEnabled(obj, where, s.enabled); err.isNotEmpty())
-        return err;
+    if (auto enabledError = readEnabled(obj, where, s.enabled); enabledError.isNotEmpty())
+        return enabledError;
     return {};
 }
 
@@ -323,8 +323,8 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     if (err.isNotEmpty())
         return err;
 
-    if (auto err = readEnabled(*obj, where, s.enabled); err.isNotEmpty())
-        return err;
+    if (auto enabledError = readEnabled(*obj, where, s.enabled); enabledError.isNotEmpty())
+        return enabledError;
     int channels = 0, design = 0;
     err = readChoice(*obj, "channels",
                      namesOf({dsp::channelModeName(dsp::ChannelMode::both),
