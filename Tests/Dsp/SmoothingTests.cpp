@@ -341,62 +341,67 @@ TEST_CASE("smoothing: the processor stays finite and decays under random moves a
     CHECK(latePeak < 1e-6 * excitedPeak);
 }
 
-/// Samples [start, next) of `out` (left; `r` right) through Kerf's processor in 512-sample
-/// blocks, or through the direct-form comparator (left only).
-void renderSpan(bool kerfLayer, ChainProcessor& p, DirectFormChain& df, std::vector<double>& out,
-                std::vector<double>& r, int start, int next)
-{
-    for (int b = start; b < next; b += 512)
-    {
-        const int len = std::min(512, next - b);
-        if (kerfLayer)
-        {
-            double* ch[2] = {out.data() + b, r.data() + b};
-            p.process(ch, 2, len);
-        }
-        else
-            for (int i = b; i < b + len; ++i)
-                out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
-    }
-}
-
 namespace
 {
+/// The tone for `seconds` through the chain `c`, changed by `change(c)` every 50 ms from
+/// 0.3 s on: Kerf's processor (stereo, 512-sample blocks, the given glide time) or the
+/// direct-form comparator with the changes simply applied.
+template <typename Change>
+std::vector<double> renderMoving(bool kerfLayer, double seconds, double glideMs, ChainSpec c,
+                                 Change change)
+{
+    const auto tone = kerf::test::testTone(kFs, seconds);
+    const int n = static_cast<int>(tone.size());
+    const int every = static_cast<int>(0.050 * kFs);
+    const int first = static_cast<int>(0.3 * kFs);
+    ChainProcessor p;
+    p.prepare(kFs, 512, 2);
+    p.setGlideMs(glideMs);
+    p.setChain(c);
+    DirectFormChain df;
+    df.set(c);
+    std::vector<double> out(tone), r(tone);
+    for (int start = 0; start < n;)
+    {
+        const int next = std::min(start < first ? first : start + every, n);
+        if (start >= first)
+        {
+            change(c);
+            p.setChain(c);
+            df.set(c);
+        }
+        for (int b = start; b < next; b += 512)
+        {
+            const int len = std::min(512, next - b);
+            if (kerfLayer)
+            {
+                double* ch[2] = {out.data() + b, r.data() + b};
+                p.process(ch, 2, len);
+            }
+            else
+                for (int i = b; i < b + len; ++i)
+                    out[static_cast<std::size_t>(i)] = df.process(out[static_cast<std::size_t>(i)]);
+        }
+        start = next;
+    }
+    return out;
+}
+
 /// Renders the splatter test: the tone through 8 sections whose settings jump at random
 /// every 50 ms (from 0.3 s on) for `seconds`. Kerf's processor (stereo, blocks of 512) or
 /// the direct-form comparator.
 std::vector<double> renderJumps(bool kerfLayer, unsigned seed, double seconds)
 {
     std::mt19937 rng(seed);
-    const auto tone = kerf::test::testTone(kFs, seconds);
-    const int n = static_cast<int>(tone.size());
-    const int jumpEvery = static_cast<int>(0.050 * kFs);
-    const int firstJump = static_cast<int>(0.3 * kFs);
     ChainSpec c;
     for (int i = 0; i < 8; ++i)
         c.push(randomSection(rng, 0.7));
-    ChainProcessor p;
-    p.prepare(kFs, 512, 2);
-    p.setChain(c);
-    DirectFormChain df;
-    df.set(c);
-    std::vector<double> out(tone);
-    std::vector<double> r(tone);
-    for (int start = 0; start < n;)
-    {
-        int next = start < firstJump ? firstJump : start + jumpEvery;
-        next = std::min(next, n);
-        if (start >= firstJump)
-        {
-            for (int i = 0; i < 8; ++i)
-                c.stages[static_cast<std::size_t>(i)] = randomSection(rng, 0.7);
-            p.setChain(c);
-            df.set(c);
-        }
-        renderSpan(kerfLayer, p, df, out, r, start, next);
-        start = next;
-    }
-    return out;
+    return renderMoving(kerfLayer, seconds, kDefaultGlideMs, c,
+                        [&](ChainSpec& chain)
+                        {
+                            for (int i = 0; i < 8; ++i)
+                                chain.stages[static_cast<std::size_t>(i)] = randomSection(rng, 0.7);
+                        });
 }
 } // namespace
 
@@ -523,10 +528,6 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
 {
     std::mt19937 rng(seed);
     std::uniform_real_distribution<double> u(-1.0, 1.0);
-    const auto tone = kerf::test::testTone(kFs, seconds);
-    const int n = static_cast<int>(tone.size());
-    const int every = static_cast<int>(0.050 * kFs);
-    const int first = static_cast<int>(0.3 * kFs);
     const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
                                StageType::peaking};
     ChainSpec c;
@@ -541,21 +542,13 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
         s.design = i % 3 ? DesignMode::accurate : DesignMode::bilinear;
         c.push(s);
     }
-    ChainProcessor p;
-    p.prepare(kFs, 512, 2);
-    p.setGlideMs(glideMs);
-    p.setChain(c);
-    DirectFormChain df;
-    df.set(c);
-    std::vector<double> out(tone), r(tone);
-    for (int start = 0; start < n;)
-    {
-        const int next = std::min(start < first ? first : start + every, n);
-        if (start >= first)
+    return renderMoving(
+        kerfLayer, seconds, glideMs, c,
+        [&](ChainSpec& chain)
         {
             for (int i = 0; i < 8; ++i)
             {
-                StageSpec& s = c.stages[static_cast<std::size_t>(i)];
+                StageSpec& s = chain.stages[static_cast<std::size_t>(i)];
                 const StageSpec before = s;
                 s.freqHz = std::clamp(s.freqHz * std::pow(2.0, 0.95 * u(rng)), 20.0, 20000.0);
                 // Gains keep their sign (reaching 0 dB would crossfade, by design).
@@ -565,13 +558,7 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
                 s.slope = std::clamp(s.slope * std::pow(2.0, 0.95 * u(rng)), 0.1, 1.0);
                 REQUIRE(sectionsCanGlide(before, s));
             }
-            p.setChain(c);
-            df.set(c);
-        }
-        renderSpan(kerfLayer, p, df, out, r, start, next);
-        start = next;
-    }
-    return out;
+        });
 }
 } // namespace
 
