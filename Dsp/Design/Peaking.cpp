@@ -76,9 +76,22 @@ BiquadCoeffs designPeaking(double freqHz, double gainDb, double q, double sample
     };
 
     BiquadCoeffs boost;
-    const bool fitted =
+    bool fitted =
         f0 >= kFitAboveFraction * sampleRateHz &&
         matched::fitMagnitudeSquared(target, w0, 2.0 * std::numbers::pi * kFitTopFraction, boost);
+    // The prototype boost has no zero on the imaginary axis, and a cut is the boost's inverse,
+    // so its zeros become the cut's poles: a fit that puts a zero on (or within 1e-6 of) the
+    // unit circle is refused (it happened for the widest bells, q 0.025 at +-30 dB, making
+    // the cut marginally unstable). Zeros of b0 + b1 z^-1 + b2 z^-2 (common practice).
+    if (fitted)
+    {
+        const double disc = boost.b1 * boost.b1 - 4.0 * boost.b0 * boost.b2;
+        const double zeroRadius = disc >= 0.0 ? std::max(std::abs(-boost.b1 + std::sqrt(disc)),
+                                                         std::abs(-boost.b1 - std::sqrt(disc))) /
+                                                    (2.0 * std::abs(boost.b0))
+                                              : std::sqrt(std::abs(boost.b2 / boost.b0));
+        fitted = zeroRadius <= 1.0 - 1.0e-6;
+    }
     if (!fitted)
     {
         // M. Vicanek, "Matched Second Order Digital Filters" (2016), peaking EQ: poles
