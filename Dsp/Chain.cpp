@@ -208,6 +208,20 @@ void foldCoeffs(const SvfCoeffs& c, double* out) noexcept
         out[m] = folded[m];
 }
 
+/// Processing coefficients of folded values (foldCoeffs undone): g = v2, k from
+/// a1 = 1 / (1 + g (g + k)), mHigh = c0, mBand = c1 + mHigh k, mLow = c2 + mHigh.
+SvfCoeffs unfoldCoeffs(const double* v) noexcept
+{
+    SvfCoeffs c;
+    c.g = v[2];
+    c.k = (1.0 / v[0] - 1.0) / c.g - c.g;
+    c.mHigh = v[3];
+    c.mBand = v[4] + c.mHigh * c.k;
+    c.mLow = v[5] + c.mHigh;
+    c.updateDerived();
+    return c;
+}
+
 /// The stereo kernel's pair form of folded values: each value in both lanes.
 template <typename Pair> void spreadPairs(const double* v, Pair& p) noexcept
 {
@@ -304,9 +318,16 @@ void ChainProcessor::freezeGlides(const Voice& v) noexcept
     for (int idx = v.first; idx < v.first + v.count; ++idx)
     {
         const auto i = static_cast<std::size_t>(idx);
-        // Stay where the last update left the section (on its glide path, or still).
-        if (glides[i].on)
-            setSectionCoeffs(idx, glides[i].path.coeffsAt(glides[i].s));
+        // Stay where the section is: at a knot on its glide path, between knots on its
+        // running cubic, or still.
+        if (glides[i].on && clock < glides[i].knotEnd)
+        {
+            double v[6];
+            foldedNow(idx, v);
+            setSectionCoeffs(idx, unfoldCoeffs(v));
+        }
+        else if (glides[i].on)
+            setSectionCoeffs(idx, glides[i].path.coeffsAt(glides[i].sAt(clock)));
         else
             setSectionCoeffs(idx, coeffs[i]);
         glides[i].on = false;
@@ -335,6 +356,8 @@ void ChainProcessor::installNow(const ChainSpec& chain) noexcept
     targetStages = n;
     hasPending = false;
     movingStages = 0;
+    everyUpdate = false;
+    nextKnot = 0;
     anyActive = false;
     for (int i = 0; i < n; ++i)
         anyActive = anyActive || stages[static_cast<std::size_t>(i)].live.kind != Voice::Kind::none;
@@ -380,16 +403,21 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         const int idx = st.live.first + j;
         Glide& g = glides[static_cast<std::size_t>(idx)];
         const SvfCoeffs target = toSvf(designed.sections[static_cast<std::size_t>(j)]);
-        // From where the last update left the section (an update is always a knot).
+        // From where the section is on its path. Between two of its knots the new glide's
+        // first segment starts from the running cubic's values here (they differ from the
+        // path by the interpolation error only), so the values run on without a jump.
         const SvfNatural from =
-            g.on ? g.path.at(g.s) : toNatural(coeffs[static_cast<std::size_t>(idx)]);
+            g.on ? g.path.at(g.sAt(clock)) : toNatural(coeffs[static_cast<std::size_t>(idx)]);
+        if (g.on && clock < g.knotEnd)
+            foldedNow(idx, rampKnot[static_cast<std::size_t>(idx)].v);
         g.path = GlidePath(from, toNatural(target));
-        g.s = 0.0;
         for (double& v : g.slope)
             v = 0.0; // the transition curve starts at rest
         g.target = target;
-        g.pos = 0;
+        g.start = clock;
         g.len = len;
+        g.step = glideKnotSamples(len);
+        g.knotEnd = clock; // the first segment starts at this update
         g.on = true;
     }
     st.spec = spec;
@@ -442,7 +470,6 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
 
 void ChainProcessor::update() noexcept
 {
-    lastUpdate = clock;
     if (hasPending)
     {
         hasPending = false;
@@ -464,16 +491,18 @@ void ChainProcessor::update() noexcept
         numStages = all;
         targetStages = n;
     }
-    constexpr int K = kUpdateIntervalSamples;
     struct Knot
     {
         int slot;
         double dsdn; // ds/dn at the segment's end
+        int length;  // samples to the segment's end
     };
     std::array<Knot, kMaxSectionSlots> knots;
     int numKnots = 0;
     movingStages = 0;
     anyActive = false;
+    everyUpdate = false;
+    nextKnot = std::numeric_limits<long long>::max();
     for (int i = 0; i < numStages; ++i)
     {
         Stage& st = stages[static_cast<std::size_t>(i)];
@@ -495,7 +524,8 @@ void ChainProcessor::update() noexcept
                 Glide& g = glides[u];
                 if (!g.on)
                     continue;
-                if (g.pos >= g.len)
+                const long long end = g.start + g.len;
+                if (clock >= end)
                 {
                     // Arrived: exactly the designed target from here on.
                     g.on = false;
@@ -503,27 +533,36 @@ void ChainProcessor::update() noexcept
                     continue;
                 }
                 gliding = true;
-                g.pos = std::min(g.pos + K, g.len);
-                // The segment to the next update ends on the path's exact values and slope
-                // there: computed below, four sections at a time.
-                if (g.pos < g.len)
+                if (clock < g.knotEnd)
                 {
-                    const double t = static_cast<double>(g.pos) / static_cast<double>(g.len);
-                    g.s = transitionCurve(t);
-                    knots[numKnots++] = {idx, transitionSlope(t) / static_cast<double>(g.len)};
+                    nextKnot = std::min(nextKnot, g.knotEnd); // between knots: runs on
+                    continue;
+                }
+                // A knot: the next segment ends on the path's exact values and slope one
+                // knot interval on (computed below, four sections at a time).
+                const long long e = std::min(clock + g.step, end);
+                const int length = static_cast<int>(e - clock);
+                g.knotEnd = e;
+                nextKnot = std::min(nextKnot, e);
+                rampOrigin[u] = clock;
+                if (e < end)
+                {
+                    const double t = static_cast<double>(e - g.start) / static_cast<double>(g.len);
+                    knots[numKnots++] = {idx, transitionSlope(t) / static_cast<double>(g.len),
+                                         length};
                 }
                 else
                 {
-                    g.s = 1.0;
-                    double end[6];
+                    double endValues[6];
                     const double still[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
-                    foldCoeffs(g.target, end);
-                    startCubic(idx, end, still);
+                    foldCoeffs(g.target, endValues);
+                    startCubic(idx, endValues, still, length);
                 }
                 ramping[u] = true;
             }
         if (st.fading || st.queued || gliding)
             ++movingStages;
+        everyUpdate = everyUpdate || st.fading || st.queued;
         anyActive = anyActive || st.fading || st.live.kind != Voice::Kind::none;
     }
     // The knots' values and slopes, four sections at a time, and their segments' cubics.
@@ -537,7 +576,7 @@ void ChainProcessor::update() noexcept
             const Glide& g =
                 glides[static_cast<std::size_t>(knots[static_cast<std::size_t>(b + i)].slot)];
             paths[i] = &g.path;
-            s[i] = g.s;
+            s[i] = g.sAt(g.knotEnd);
         }
         foldedAtBatch(paths, s, n, end, endSlope);
         for (int i = 0; i < n; ++i)
@@ -545,7 +584,7 @@ void ChainProcessor::update() noexcept
             const Knot& kn = knots[static_cast<std::size_t>(b + i)];
             for (double& v : endSlope[i])
                 v *= kn.dsdn;
-            startCubic(kn.slot, end[i], endSlope[i]);
+            startCubic(kn.slot, end[i], endSlope[i], kn.length);
         }
     }
     // Stages the chain no longer has are dropped once they have faded out.
@@ -558,11 +597,12 @@ void ChainProcessor::update() noexcept
     }
 }
 
-void ChainProcessor::startCubic(int idx, const double end[6], const double endSlope[6]) noexcept
+void ChainProcessor::startCubic(int idx, const double end[6], const double endSlope[6],
+                                int length) noexcept
 {
-    // The Hermite cubic from here (exact values, the slope the last update found) to the
-    // next update: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
-    constexpr double K = kUpdateIntervalSamples;
+    // The Hermite cubic from here (exact values, the slope the last knot found) to the
+    // next knot: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
+    const double K = length;
     const auto u = static_cast<std::size_t>(idx);
     Glide& g = glides[u];
     RampCubic& q = rampCubic[u];
@@ -578,6 +618,15 @@ void ChainProcessor::startCubic(int idx, const double end[6], const double endSl
         g.slope[m] = endSlope[m];
     }
     ramping[u] = true;
+}
+
+void ChainProcessor::foldedNow(int idx, double out[6]) const noexcept
+{
+    const auto u = static_cast<std::size_t>(idx);
+    const RampCubic& q = rampCubic[u];
+    const double t = static_cast<double>(clock - rampOrigin[u]);
+    for (int m = 0; m < 6; ++m)
+        out[m] = q.c[0].v[m] + t * (q.c[1].v[m] + t * (q.c[2].v[m] + t * q.c[3].v[m]));
 }
 
 void ChainProcessor::runSections(int channel, int firstSection, int count, double* x,
@@ -602,7 +651,7 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
             // Gliding: the folded form with its values on the section's cubic (the stereo
             // kernels' arithmetic, one lane).
             const RampCubic& q = rampCubic[idx];
-            const double n0 = static_cast<double>(clock - lastUpdate);
+            const double n0 = static_cast<double>(clock - rampOrigin[idx]);
             double ic1 = s.ic1eq, ic2 = s.ic2eq;
             for (int n = 0; n < len; ++n)
             {
@@ -637,6 +686,7 @@ namespace
 struct alignas(32) GlidePair
 {
     double q[4][12], s1[4], s2[4];
+    double at[4]; // sample index of the lanes' cubics at step 0 of the kernel
 };
 
 /// The stereo kernels' view of one section: its coefficients (lanes while still, its cubic
@@ -645,6 +695,7 @@ struct StretchSection
 {
     double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
     double* state;  // ic1, ic2 pairs
+    double n0;      // gliding: samples since the cubic's start at the block's first sample
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -669,7 +720,7 @@ struct StretchSection
 #define KERF_CUBIC_PREPARE                                                                         \
     __m128d cf[6];                                                                                 \
     {                                                                                              \
-        const __m128d nn = _mm_set1_pd(n0 + n);                                                    \
+        const __m128d nn = _mm_set1_pd(sections[j].n0 + n);                                        \
         for (int m = 0; m < 6; m += 2)                                                             \
         {                                                                                          \
             __m128d q = _mm_load_pd(c + 24 + m);                                                   \
@@ -721,7 +772,7 @@ void stretchKernel(const StretchSection* sections, int count, double* l, double*
 /// The kernel while sections glide: coefficients from each section's cubic at sample n0 + n
 /// of its segment (processors without FMA; the pair kernel below otherwise).
 void stretchKernelCubic(const StretchSection* sections, int count, double* l, double* r, int len,
-                        __m128d* carry, double n0) noexcept
+                        __m128d* carry) noexcept
 {
     KERF_STRETCH_BODY(mulAdd, KERF_CUBIC_COEF, KERF_CUBIC_PREPARE)
 }
@@ -746,10 +797,11 @@ __attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* s
 /// coefficient in all four lanes. At the ends of the block a pair may have one section
 /// working and one idle (not yet started or finished): its memories are kept as they were.
 /// cl[j], cr[j] hold the sample waiting to enter section j; an odd stretch ends with an
-/// identity section. n0: the samples since the cubics' start at the block's first sample.
+/// identity section. Each pair's `at` gives its lanes' sample index at step 0 (the samples
+/// since each cubic's start, less the section's skew).
 __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
                                                            double* r, int len, double* cl,
-                                                           double* cr, double n0) noexcept
+                                                           double* cr) noexcept
 {
     const int last = 2 * pairs - 1;
     for (int j = 0; j <= 2 * pairs; ++j)
@@ -763,13 +815,12 @@ __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pai
         }
         const int pHigh = std::min(pairs - 1, t >> 1);
         const int pLow = t - len <= 0 ? 0 : (t - len + 1) >> 1;
-        // Sample index of sections 2p and 2p + 1 in their segment: n0 + t - 2p (- 1).
-        __m256d nv =
-            _mm256_sub_pd(_mm256_set1_pd(n0 + t - 2.0 * pHigh), _mm256_set_pd(1.0, 0.0, 1.0, 0.0));
-        const __m256d two = _mm256_set1_pd(2.0);
-        for (int p = pHigh; p >= pLow; --p, nv = _mm256_add_pd(nv, two))
+        // Sample index of sections 2p and 2p + 1 in their segments: n0 + t - 2p (- 1).
+        const __m256d tv = _mm256_set1_pd(static_cast<double>(t));
+        for (int p = pHigh; p >= pLow; --p)
         {
             GlidePair& g = w[p];
+            const __m256d nv = _mm256_add_pd(tv, _mm256_load_pd(g.at));
             __m256d grp[3];
             for (int k = 0; k < 3; ++k)
             {
@@ -844,9 +895,10 @@ void ChainProcessor::allowFusedMultiplyAdd(bool allowed) noexcept
 
 #if defined(__x86_64__) && defined(__GNUC__)
 void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l, double* r,
-                                   int len, double n0) noexcept
+                                   int len) noexcept
 {
     // Lay the stretch out pair by pair, run the pair kernel, put the memories back.
+    static_assert(sizeof(GlidePair) == sizeof(GlidePairRoom));
     const auto* list = static_cast<const StretchSection*>(sectionList);
     const int pairs = (count + 1) / 2;
     auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
@@ -861,6 +913,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
                 // Past the stretch's end, an identity section: y = v0 exactly.
                 g.q[o][at] = j < count ? list[j].coeffs[8 * o + m] : (o == 0 && m == 3 ? 1.0 : 0.0);
         }
+        g.at[k] = g.at[2 + k] = (j < count ? list[j].n0 : 0.0) - static_cast<double>(j);
         const double* st = j < count ? list[j].state : nullptr;
         g.s1[k] = st != nullptr ? st[0] : 0.0;
         g.s1[2 + k] = st != nullptr ? st[1] : 0.0;
@@ -868,7 +921,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         g.s2[2 + k] = st != nullptr ? st[3] : 0.0;
     }
     alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
-    pairCubicKernelFma(w, pairs, l, r, len, cl, cr, n0);
+    pairCubicKernelFma(w, pairs, l, r, len, cl, cr);
     for (int j = 0; j < count; ++j)
     {
         const GlidePair& g = w[j / 2];
@@ -896,7 +949,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         for (int j = v.first; j < v.first + v.count; ++j)
         {
             const auto u = static_cast<std::size_t>(j);
-            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1};
+            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1, 0.0};
             ramp = ramp || ramping[u];
         }
     }
@@ -904,7 +957,6 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         return;
     // Gliding: every section of the stretch runs on its cubic (a constant for those holding
     // still), evaluated at each sample.
-    const double n0 = static_cast<double>(clock - lastUpdate);
     if (ramp)
     {
         int k = 0;
@@ -912,8 +964,11 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const Voice& v = stages[static_cast<std::size_t>(s)].live;
             for (int j = v.first; j < v.first + v.count; ++j, ++k)
-                list[static_cast<std::size_t>(k)].coeffs =
-                    rampCubic[static_cast<std::size_t>(j)].c[0].v;
+            {
+                auto& item = list[static_cast<std::size_t>(k)];
+                item.coeffs = rampCubic[static_cast<std::size_t>(j)].c[0].v;
+                item.n0 = static_cast<double>(clock - rampOrigin[static_cast<std::size_t>(j)]);
+            }
         }
     }
     __m128d carry[kMaxSections];
@@ -921,14 +976,14 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
     if (hasFma())
     {
         if (ramp)
-            runGlidePairs(list.data(), count, l, r, len, n0);
+            runGlidePairs(list.data(), count, l, r, len);
         else
             stretchKernelFma(list.data(), count, l, r, len, carry);
         return;
     }
 #endif
     if (ramp)
-        stretchKernelCubic(list.data(), count, l, r, len, carry, n0);
+        stretchKernelCubic(list.data(), count, l, r, len, carry);
     else
         stretchKernel(list.data(), count, l, r, len, carry);
 }
@@ -1337,11 +1392,18 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
     // caller splits its blocks.
     for (int start = 0; start < numSamples;)
     {
-        if (isMoving() && clock % K == 0)
+        // Updates fall on update points: every one while a target waits or a crossfade runs,
+        // otherwise only where some glide has a knot.
+        if (isMoving() && clock % K == 0 && (hasPending || everyUpdate || clock >= nextKnot))
             update();
         int len = std::min(blockSize, numSamples - start);
         if (isMoving())
-            len = std::min(len, K - static_cast<int>(clock % K));
+        {
+            long long stop = clock + (K - clock % K);
+            if (!hasPending && !everyUpdate)
+                stop = std::max(stop, nextKnot);
+            len = static_cast<int>(std::min<long long>(len, stop - clock));
+        }
         if (anyActive)
         {
             for (int ch = 0; ch < nch; ++ch)

@@ -210,11 +210,18 @@ private:
     struct Glide
     {
         bool on = false;
-        int pos = 0, len = 0;
+        long long start = 0;   // clock where the glide began (an update point)
+        int len = 0;           // samples
+        int step = 0;          // knot interval (glideKnotSamples(len))
+        long long knotEnd = 0; // clock of the running segment's end (the next knot)
         GlidePath path;
-        double s = 0.0; // where along the path the last update left the section
-        double slope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0}; // d(folded values)/dn there
+        double slope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0}; // d(folded values)/dn at knotEnd
         SvfCoeffs target;
+        /// Where along the path the section is at clock c (smoothstep of the time fraction).
+        double sAt(long long c) const noexcept
+        {
+            return transitionCurve(static_cast<double>(c - start) / static_cast<double>(len));
+        }
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
     /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
@@ -253,7 +260,9 @@ private:
     void startGlide(int stage, const StageSpec& spec) noexcept;
     void freezeGlides(const Voice& v) noexcept;
     void update() noexcept; // at every update point while something moves
-    void startCubic(int idx, const double end[6], const double endSlope[6]) noexcept;
+    void startCubic(int idx, const double end[6], const double endSlope[6], int length) noexcept;
+    /// A gliding section's folded values at the current clock, from its running cubic.
+    void foldedNow(int idx, double out[6]) const noexcept;
     void runFading(int stage, int numChannels, int len) noexcept;
     void addVoice(const Voice& v, const double* wIn, const double* wOut, double* const* x,
                   double* const* acc, int numChannels, int len) noexcept;
@@ -265,12 +274,12 @@ private:
     std::array<Stage, kMaxStages> stages{};
     std::array<SvfCoeffs, kMaxSectionSlots> coeffs{};
     std::array<PairCoeffs, kMaxSectionSlots> pairCoeffs{};
-    // While a section glides, its folded values follow a cubic in n, the samples since the
-    // last update (lastUpdate): the Hermite cubic that starts on the path's exact values and
-    // slope there and ends on its exact values and slope at the next update (rampKnot), so
-    // values and slopes run on without a break. The kernels evaluate it at each sample
-    // (Horner), so any piece of a block gets the same values. Not gliding: rampKnot holds
-    // the values (the cubic is that constant).
+    // While a section glides, its folded values follow a cubic in n, the samples since its
+    // last knot (rampOrigin): the Hermite cubic that starts on the path's exact values and
+    // slope there and ends on its exact values and slope at its next knot (rampKnot holds
+    // those), so values and slopes run on without a break. The kernels evaluate it at each
+    // sample (Horner), so any piece of a block gets the same values. Not gliding: rampKnot
+    // holds the values (the cubic is that constant).
     struct RampCubic
     {
         RampCoeffs c[4]; // value = c0 + n (c1 + n (c2 + n c3)), per folded value
@@ -278,16 +287,19 @@ private:
     std::array<RampCubic, kMaxSectionSlots> rampCubic{};
     std::array<RampCoeffs, kMaxSectionSlots> rampKnot{};
     std::array<bool, kMaxSectionSlots> ramping{};
-    long long lastUpdate = 0; // clock of the last update (where every running cubic starts)
+    std::array<long long, kMaxSectionSlots> rampOrigin{}; // clock where each cubic starts
+    // The next update: the earliest knot of any glide, or the next update point while
+    // anything else moves (a crossfade, a queued change) or a target waits.
+    long long nextKnot = 0;
+    bool everyUpdate = false; // a crossfade or queued change: update at every update point
     // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
-    // 448-byte entry, laid out for one 256-bit register.
+    // 480-byte entry, laid out for one 256-bit register.
     struct alignas(32) GlidePairRoom
     {
-        double v[56];
+        double v[60];
     };
     std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
-    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len,
-                       double n0) noexcept;
+    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7

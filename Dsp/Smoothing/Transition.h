@@ -42,6 +42,29 @@ inline constexpr double kMinGlideMs = 12.0;
 /// Samples between updates of moving settings (coefficients are interpolated per sample in
 /// between); targets taken between updates wait for the next one.
 inline constexpr int kUpdateIntervalSamples = 32;
+/// Fewest knot intervals a glide has (glideKnotSamples): as many as the shortest glide
+/// (kMinGlideMs at 48 kHz, 576 samples) has with knots every kUpdateIntervalSamples, the
+/// case the splatter bar is measured at.
+inline constexpr int kMinKnotsPerGlide = 18;
+/// Longest knot interval, samples.
+inline constexpr int kMaxKnotSamples = 4 * kUpdateIntervalSamples;
+
+/// Samples between the knots of a glide `glideSamples` long: the longest of 32, 64 and 128
+/// that leaves at least kMinKnotsPerGlide intervals. Between knots each coefficient follows
+/// a Hermite cubic through the path's exact values and slopes, whose error is at most
+/// K^4/384 max|f''''| (f the coefficient along the path; the cubic Hermite error bound,
+/// a standard numerical-analysis result, from memory). For a given move f is a fixed
+/// function of the smoothstep at n/T, so f'''' scales as 1/T^4 and the error as (K/T)^4:
+/// K/T no larger than at the shortest glide keeps the error no larger than there
+/// (measured: 25 ms glides with knots every 64 samples splatter less than 12 ms glides with
+/// knots every 32).
+constexpr int glideKnotSamples(int glideSamples) noexcept
+{
+    int k = kUpdateIntervalSamples;
+    while (2 * k <= kMaxKnotSamples && 2 * k * kMinKnotsPerGlide <= glideSamples)
+        k *= 2;
+    return k;
+}
 
 /// The transition curve s(t) on [0, 1]: the C3 "smoothstep" polynomial
 /// 35 t^4 - 84 t^5 + 70 t^6 - 20 t^7 (its first three derivatives vanish at both ends, so

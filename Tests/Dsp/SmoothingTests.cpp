@@ -6,6 +6,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <array>
 #include <cmath>
 #include <random>
 #include <vector>
@@ -585,6 +586,17 @@ TEST_CASE("smoothing: splatter bar for glides (a hand moving every section every
         kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0, 0.0), kFs, 0.25);
     WARN("splatter, glides at glide time 0: Kerf " << fastest << " dBFS");
     CHECK(fastest <= -80.0);
+    // Longer glides put their knots further apart (glideKnotSamples: 25 ms glides every 64
+    // samples, 50 ms every 128).
+    for (const double ms : {25.0, 50.0})
+    {
+        INFO("glide time " << ms << " ms, knots every "
+                           << glideKnotSamples(transitionSamples(ms, kFs)) << " samples");
+        const double longer =
+            kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0, ms), kFs, 0.25);
+        WARN("splatter, glides at glide time " << ms << " ms: Kerf " << longer << " dBFS");
+        CHECK(longer <= -80.0);
+    }
 }
 
 TEST_CASE("smoothing: splatter bar for comb and echo delay jumps", "[smoothing]")
@@ -622,10 +634,13 @@ TEST_CASE("smoothing: every glide kernel gives the same output", "[smoothing]")
     // FMA/AVX), through a one-section SSE2 kernel where the CPU lacks FMA, and one-channel
     // stages through scalar code: the same steps, so the outputs agree to rounding (the
     // kernels differ only in fused against separate multiply-adds). Odd and even section
-    // counts (an odd stretch ends with an identity section in the pair kernel).
-    for (const int sections : {1, 2, 5, 8})
+    // counts (an odd stretch ends with an identity section in the pair kernel); knots every
+    // 32 samples (the default glide time) and every 128 (100 ms glides).
+    for (int run = 0; run < 8; ++run)
     {
-        INFO(sections << " sections");
+        const int sections = std::array<int, 4>{1, 2, 5, 8}[static_cast<std::size_t>(run % 4)];
+        const double glideMs = run < 4 ? kDefaultGlideMs : 100.0;
+        INFO(sections << " sections, glide time " << glideMs << " ms");
         std::mt19937 rng(static_cast<unsigned>(40 + sections));
         std::uniform_real_distribution<double> u(-1.0, 1.0);
         const int n = 9600;
@@ -647,6 +662,7 @@ TEST_CASE("smoothing: every glide kernel gives the same output", "[smoothing]")
             ChainProcessor::allowFusedMultiplyAdd(fma);
             ChainProcessor p;
             p.prepare(kFs, 256, channels);
+            p.setGlideMs(glideMs);
             ChainSpec now = c;
             p.setChain(now);
             std::vector<double> l(x), r(x);
@@ -702,11 +718,15 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
     // The chain changes at multiples of 6720 samples, a multiple of every block size
     // tested, so every render gives the changes at the same sample times.
     const int changeEvery = 2 * 3 * 5 * 7 * 32; // 6720
+    // At the default glide time the knots come every 32 samples; 200 ms glides put them 128
+    // apart and take new targets between knots, in the middle of a glide.
+    double glideMs = kDefaultGlideMs;
     auto render = [&](int block)
     {
         std::mt19937 rng(seed);
         ChainProcessor p;
         p.prepare(kFs, block, 2);
+        p.setGlideMs(glideMs);
         ChainSpec c;
         for (int i = 0; i < 6; ++i)
             c.push(randomSection(rng, 0.8));
@@ -733,19 +753,23 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
         }
         return std::make_pair(l, r);
     };
-    const auto whole = render(6720);
-    for (int block : {1, 2, 3, 5, 7, 32, 64, 70, 105, 210, 224, 960})
+    for (const double ms : {kDefaultGlideMs, 200.0})
     {
-        INFO("block " << block);
-        const auto pieces = render(block);
-        bool same = true;
-        for (int i = 0; i < n; ++i)
-            same = same &&
-                   pieces.first[static_cast<std::size_t>(i)] ==
-                       whole.first[static_cast<std::size_t>(i)] &&
-                   pieces.second[static_cast<std::size_t>(i)] ==
-                       whole.second[static_cast<std::size_t>(i)];
-        CHECK(same);
+        glideMs = ms;
+        const auto whole = render(6720);
+        for (int block : {1, 2, 3, 5, 7, 32, 64, 70, 105, 210, 224, 960})
+        {
+            INFO("glide time " << ms << " ms, block " << block);
+            const auto pieces = render(block);
+            bool same = true;
+            for (int i = 0; i < n; ++i)
+                same = same &&
+                       pieces.first[static_cast<std::size_t>(i)] ==
+                           whole.first[static_cast<std::size_t>(i)] &&
+                       pieces.second[static_cast<std::size_t>(i)] ==
+                           whole.second[static_cast<std::size_t>(i)];
+            CHECK(same);
+        }
     }
 }
 
