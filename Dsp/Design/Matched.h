@@ -1,11 +1,11 @@
 #pragma once
 // Building blocks of the `accurate` designs: matched poles, magnitude-matched numerators and
-// a constrained magnitude-squared fit. Pure functions, no allocation (fixed-size Eigen).
+// a constrained magnitude-squared fit. Pure functions, no allocation.
 #include "Biquad.h"
 
-#include <Eigen/Dense>
-
+#include <algorithm>
 #include <cmath>
+#include <utility>
 
 namespace kerf::dsp::matched
 {
@@ -37,13 +37,50 @@ BiquadCoeffs inverse(const BiquadCoeffs& c) noexcept;
 /// second-order polynomial, common practice).
 bool isStable(const BiquadCoeffs& c) noexcept;
 
+/// Solves a x = b in place for a small dense system (Gaussian elimination with partial
+/// pivoting, common practice); false when a pivot vanishes. The solution replaces b.
+template <int N> bool solveSmall(double (&a)[N][N], double (&b)[N]) noexcept
+{
+    for (int col = 0; col < N; ++col)
+    {
+        int pivot = col;
+        for (int row = col + 1; row < N; ++row)
+            if (std::abs(a[row][col]) > std::abs(a[pivot][col]))
+                pivot = row;
+        if (!(std::abs(a[pivot][col]) > 0.0))
+            return false;
+        if (pivot != col)
+        {
+            for (int k = 0; k < N; ++k)
+                std::swap(a[col][k], a[pivot][k]);
+            std::swap(b[col], b[pivot]);
+        }
+        for (int row = col + 1; row < N; ++row)
+        {
+            const double f = a[row][col] / a[col][col];
+            for (int k = col; k < N; ++k)
+                a[row][k] -= f * a[col][k];
+            b[row] -= f * b[col];
+        }
+    }
+    for (int row = N - 1; row >= 0; --row)
+    {
+        double v = b[row];
+        for (int k = row + 1; k < N; ++k)
+            v -= a[row][k] * b[k];
+        b[row] = v / a[row][row];
+    }
+    return true;
+}
+
 /// Constrained, iteratively reweighted least-squares fit of a biquad's squared magnitude to
 /// target(w) (w in radians per sample): exact at DC and at omega0, least relative error on
 /// 24 log-spaced points from omega0/8 to omegaMax. The fit is linear in the Vicanek (2016)
 /// coefficients (B0, B1, B2, A1, A2) (equation error, reweighted by 1/(T*A) after the
 /// first pass as in K. Steiglitz and L. E. McBride, IEEE Trans. AC 10(4), 1965); the result
 /// is spectrally factored. Returns false (out untouched) if the fit is not realisable as
-/// a stable section.
+/// a stable section. The DC constraint fixes B0 = T(0); the other four unknowns solve the
+/// weighted normal equations bordered by the constraint at omega0 (Lagrange multiplier).
 template <typename Target>
 bool fitMagnitudeSquared(const Target& target, double omega0, double omegaMax,
                          BiquadCoeffs& out) noexcept
@@ -57,56 +94,80 @@ bool fitMagnitudeSquared(const Target& target, double omega0, double omegaMax,
         p0 = 1.0 - p1;
         p2 = 4.0 * p0 * p1;
     };
-    // Rows: B0 p0 + B1 p1 + B2 p2 - T (A1 p1 + A2 p2) = T p0  (A0 normalised to 1).
-    Eigen::Matrix<double, kPoints, 5> rows;
-    Eigen::Matrix<double, kPoints, 1> rhs, t, p0s, p1s, p2s;
+    // Rows: B0 p0 + B1 p1 + B2 p2 - T (A1 p1 + A2 p2) = T p0  (A0 normalised to 1); with
+    // B0 = T(0) known: [p1, p2, -T p1, -T p2] . (B1, B2, A1, A2) = p0 (T - T(0)).
+    const double tDc = target(0.0);
+    double rows[kPoints][4], rhs[kPoints], t[kPoints], p0s[kPoints], p1s[kPoints], p2s[kPoints];
     const double lo = omega0 / 8.0;
-    for (int i = 0; i < kPoints; ++i)
+    const double ratio = std::pow(omegaMax / lo, 1.0 / (kPoints - 1));
+    double w = lo;
+    for (int i = 0; i < kPoints; ++i, w *= ratio)
     {
-        const double w = lo * std::pow(omegaMax / lo, static_cast<double>(i) / (kPoints - 1));
+        if (i == kPoints - 1)
+            w = omegaMax;
         double p0, p1, p2;
         phis(w, p0, p1, p2);
         const double ti = target(w);
-        rows.row(i) << p0, p1, p2, -ti * p1, -ti * p2;
-        rhs(i) = ti * p0;
-        t(i) = ti;
-        p0s(i) = p0;
-        p1s(i) = p1;
-        p2s(i) = p2;
+        rows[i][0] = p1;
+        rows[i][1] = p2;
+        rows[i][2] = -ti * p1;
+        rows[i][3] = -ti * p2;
+        rhs[i] = p0 * (ti - tDc);
+        t[i] = ti;
+        p0s[i] = p0;
+        p1s[i] = p1;
+        p2s[i] = p2;
     }
-    Eigen::Matrix<double, 2, 5> cons;
-    Eigen::Vector2d consRhs;
+    double cons[4], consRhs;
     {
-        const double tDc = target(0.0);
-        cons.row(0) << 1.0, 0.0, 0.0, 0.0, 0.0;
-        consRhs(0) = tDc;
         double p0, p1, p2;
         phis(omega0, p0, p1, p2);
         const double t0 = target(omega0);
-        cons.row(1) << p0, p1, p2, -t0 * p1, -t0 * p2;
-        consRhs(1) = t0 * p0;
+        cons[0] = p1;
+        cons[1] = p2;
+        cons[2] = -t0 * p1;
+        cons[3] = -t0 * p2;
+        consRhs = p0 * (t0 - tDc);
     }
-    Eigen::Matrix<double, kPoints, 1> weight = t.cwiseInverse();
-    Eigen::Matrix<double, 5, 1> x = Eigen::Matrix<double, 5, 1>::Zero();
+    double weight[kPoints];
+    for (int i = 0; i < kPoints; ++i)
+        weight[i] = 1.0 / t[i];
+    double x[5] = {tDc, 0.0, 0.0, 0.0, 0.0};
     for (int pass = 0; pass < kPasses; ++pass)
     {
-        const Eigen::Matrix<double, kPoints, 5> rw = weight.asDiagonal() * rows;
-        const Eigen::Matrix<double, kPoints, 1> bw = weight.cwiseProduct(rhs);
-        Eigen::Matrix<double, 7, 7> kkt = Eigen::Matrix<double, 7, 7>::Zero();
-        kkt.topLeftCorner<5, 5>() = rw.transpose() * rw;
-        kkt.topRightCorner<5, 2>() = cons.transpose();
-        kkt.bottomLeftCorner<2, 5>() = cons;
-        Eigen::Matrix<double, 7, 1> k;
-        k.head<5>() = rw.transpose() * bw;
-        k.tail<2>() = consRhs;
-        x = kkt.fullPivLu().solve(k).head<5>();
-        const Eigen::Matrix<double, kPoints, 1> aPrev = p0s + x(3) * p1s + x(4) * p2s;
+        double kkt[5][5] = {}, k[5] = {};
+        for (int i = 0; i < kPoints; ++i)
+        {
+            const double w2 = weight[i] * weight[i];
+            for (int r = 0; r < 4; ++r)
+            {
+                const double wr = w2 * rows[i][r];
+                for (int c = r; c < 4; ++c)
+                    kkt[r][c] += wr * rows[i][c];
+                k[r] += wr * rhs[i];
+            }
+        }
+        for (int r = 0; r < 4; ++r)
+        {
+            for (int c = 0; c < r; ++c)
+                kkt[r][c] = kkt[c][r];
+            kkt[r][4] = kkt[4][r] = cons[r];
+        }
+        k[4] = consRhs;
+        if (!solveSmall(kkt, k))
+            return false;
+        for (int m = 0; m < 4; ++m)
+            x[m + 1] = k[m];
         // Weights enter squared, so |A| serves while an intermediate pass is not yet a valid
         // |A|^2; the final result is checked for realisability and stability below.
-        weight = t.cwiseProduct(aPrev.cwiseAbs().cwiseMax(1.0e-300)).cwiseInverse();
+        for (int i = 0; i < kPoints; ++i)
+        {
+            const double aPrev = p0s[i] + x[3] * p1s[i] + x[4] * p2s[i];
+            weight[i] = 1.0 / (t[i] * std::max(std::abs(aPrev), 1.0e-300));
+        }
     }
     double b[3], a[3];
-    if (!factor(x(0), x(1), x(2), b) || !factor(1.0, x(3), x(4), a) || a[0] == 0.0)
+    if (!factor(x[0], x[1], x[2], b) || !factor(1.0, x[3], x[4], a) || a[0] == 0.0)
         return false;
     BiquadCoeffs c{b[0] / a[0], b[1] / a[0], b[2] / a[0], a[1] / a[0], a[2] / a[0]};
     if (!isStable(c) || !std::isfinite(c.b0) || !std::isfinite(c.b1) || !std::isfinite(c.b2))
