@@ -294,12 +294,15 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
 {
     if (count <= 0)
         return;
-    bool hasEcho = false;
+    // Echo cancellers and combs are not sections: the exact evaluation carries them.
+    bool hasDelayStage = false;
     for (int i = 0; i < chain.numStages; ++i)
-        hasEcho =
-            hasEcho || (chain.stages[static_cast<std::size_t>(i)].enabled &&
-                        chain.stages[static_cast<std::size_t>(i)].type == StageType::echoCancel);
-    if (hasEcho || !viewIsProductImpl(chain, view))
+    {
+        const auto& s = chain.stages[static_cast<std::size_t>(i)];
+        hasDelayStage = hasDelayStage || (s.enabled && (s.type == StageType::echoCancel ||
+                                                        s.type == StageType::comb));
+    }
+    if (hasDelayStage || !viewIsProductImpl(chain, view))
     {
         const auto points =
             chainResponse(chain, sampleRateHz, std::vector<double>(freqsHz, freqsHz + count), view);

@@ -61,7 +61,8 @@ std::vector<ResponsePoint> chainResponse(const ChainSpec& chain, double sampleRa
 /// Magnitude in dB only, the fast path for drawing: |H|^2 of each section from real
 /// arithmetic in phi = sin^2(omega/2) (M. Vicanek, "Matched Second Order Digital Filters",
 /// 2016, eq. for |H|^2), vectorised across frequencies. Falls back to chainResponse when a
-/// mid/side stage makes the view a sum rather than a product.
+/// mid/side stage makes the view a sum rather than a product, or the chain holds an echo
+/// canceller or a comb (not sections).
 void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double* freqsHz,
                       double* magnitudeDbOut, int count, ChannelView view = ChannelView::left);
 
