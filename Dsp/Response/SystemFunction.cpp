@@ -299,8 +299,9 @@ void chainMagnitudeDb(const ChainSpec& chain, double sampleRateHz, const double*
     for (int i = 0; i < chain.numStages; ++i)
     {
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
-        hasDelayStage = hasDelayStage || (s.enabled && (s.type == StageType::echoCancel ||
-                                                        s.type == StageType::comb));
+        hasDelayStage =
+            hasDelayStage ||
+            (s.enabled && (s.type == StageType::echoCancel || s.type == StageType::comb));
     }
     if (hasDelayStage || !viewIsProductImpl(chain, view))
     {
