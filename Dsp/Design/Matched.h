@@ -41,6 +41,7 @@ bool isStable(const BiquadCoeffs& c) noexcept;
 /// pivoting, common practice); false when a pivot vanishes. The solution replaces b.
 template <int N> bool solveSmall(double (&a)[N][N], double (&b)[N]) noexcept
 {
+    double inverse[N]; // of each pivot
     for (int col = 0; col < N; ++col)
     {
         int pivot = col;
@@ -55,9 +56,10 @@ template <int N> bool solveSmall(double (&a)[N][N], double (&b)[N]) noexcept
                 std::swap(a[col][k], a[pivot][k]);
             std::swap(b[col], b[pivot]);
         }
+        inverse[col] = 1.0 / a[col][col];
         for (int row = col + 1; row < N; ++row)
         {
-            const double f = a[row][col] / a[col][col];
+            const double f = a[row][col] * inverse[col];
             for (int k = col; k < N; ++k)
                 a[row][k] -= f * a[col][k];
             b[row] -= f * b[col];
@@ -68,7 +70,7 @@ template <int N> bool solveSmall(double (&a)[N][N], double (&b)[N]) noexcept
         double v = b[row];
         for (int k = row + 1; k < N; ++k)
             v -= a[row][k] * b[k];
-        b[row] = v / a[row][row];
+        b[row] = v * inverse[row];
     }
     return true;
 }

@@ -122,14 +122,27 @@ SvfCoeffs GlidePath::coeffsAt(double s) const noexcept
 
 namespace
 {
+/// Whether the high (or low) weight moves in dB along the path: foldWithWeights then needs
+/// e^(l0 + s step) for it.
+bool highInDb(const GlidePath& p) noexcept
+{
+    return p.from.mHigh != p.to.mHigh && p.logHigh;
+}
+bool lowInDb(const GlidePath& p) noexcept
+{
+    return p.from.mLow != p.to.mLow && p.logLow;
+}
+
 /// The weights' part of foldedAt (high and low outputs: constant, in dB or linear) and the
-/// folding of everything, given g, k, a1 and their derivatives.
+/// folding of everything, given g, k, a1 and their derivatives, and for a weight that moves
+/// in dB its magnitude e^(l0 + s step) (expHigh, expLow; unused otherwise).
 void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k, double ks,
-                     double a1, double a1s, double value[6], double slope[6]) noexcept
+                     double a1, double a1s, double expHigh, double expLow, double value[6],
+                     double slope[6]) noexcept
 {
     const SvfNatural& a = p.from;
     const SvfNatural& b = p.to;
-    auto weight = [s](double from, double to, bool log, double sign, double l0, double step,
+    auto weight = [s](double from, double to, bool log, double sign, double e, double step,
                       double& w, double& ws)
     {
         if (from == to)
@@ -139,7 +152,7 @@ void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k
         }
         else if (log)
         {
-            w = sign * std::exp(l0 + s * step);
+            w = sign * e;
             ws = w * step;
         }
         else
@@ -149,8 +162,8 @@ void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k
         }
     };
     double mh, mhs, ml, mls;
-    weight(a.mHigh, b.mHigh, p.logHigh, p.signHigh, p.logHigh0, p.logHighStep, mh, mhs);
-    weight(a.mLow, b.mLow, p.logLow, p.signLow, p.logLow0, p.logLowStep, ml, mls);
+    weight(a.mHigh, b.mHigh, p.logHigh, p.signHigh, expHigh, p.logHighStep, mh, mhs);
+    weight(a.mLow, b.mLow, p.logLow, p.signLow, expLow, p.logLowStep, ml, mls);
     const double mb = s <= 0.0 ? a.mBand : s >= 1.0 ? b.mBand : a.mBand + s * (b.mBand - a.mBand);
     const double mbs = b.mBand - a.mBand;
     value[0] = a1;
@@ -197,7 +210,8 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
                                                   int count, double (*value)[6],
                                                   double (*slope)[6]) noexcept
 {
-    alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4];
+    alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4], lh[4], dh[4], ll[4], dl[4];
+    bool anyHigh = false, anyLow = false;
     for (int i = 0; i < 4; ++i)
     {
         const GlidePath& p = *paths[i < count ? i : 0];
@@ -207,8 +221,21 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         lk[i] = p.from.logK;
         dk[i] = p.to.logK - p.from.logK;
         sv[i] = si;
+        const bool high = highInDb(p), low = lowInDb(p);
+        anyHigh = anyHigh || high;
+        anyLow = anyLow || low;
+        lh[i] = high ? p.logHigh0 : 0.0;
+        dh[i] = high ? p.logHighStep : 0.0;
+        ll[i] = low ? p.logLow0 : 0.0;
+        dl[i] = low ? p.logLowStep : 0.0;
     }
     const __m256d sv4 = _mm256_load_pd(sv);
+    // The weights that move in dB: their magnitudes, four at a time.
+    alignas(32) double eh[4] = {1.0, 1.0, 1.0, 1.0}, el[4] = {1.0, 1.0, 1.0, 1.0};
+    if (anyHigh)
+        _mm256_store_pd(eh, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dh), _mm256_load_pd(lh))));
+    if (anyLow)
+        _mm256_store_pd(el, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dl), _mm256_load_pd(ll))));
     const __m256d dg4 = _mm256_load_pd(dg), dk4 = _mm256_load_pd(dk);
     const __m256d g = exp4(_mm256_fmadd_pd(sv4, dg4, _mm256_load_pd(lg)));
     const __m256d k = exp4(_mm256_fmadd_pd(sv4, dk4, _mm256_load_pd(lk)));
@@ -228,8 +255,8 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
     _mm256_store_pd(a1v, a1);
     _mm256_store_pd(a1sv, a1s);
     for (int i = 0; i < count; ++i)
-        foldWithWeights(*paths[i], sv[i], gv[i], gsv[i], kv[i], ksv[i], a1v[i], a1sv[i], value[i],
-                        slope[i]);
+        foldWithWeights(*paths[i], sv[i], gv[i], gsv[i], kv[i], ksv[i], a1v[i], a1sv[i], eh[i],
+                        el[i], value[i], slope[i]);
 }
 
 bool hasAvxFma() noexcept
@@ -251,7 +278,9 @@ void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexc
                  ks = k * (to.logK - from.logK);
     const double a1 = 1.0 / (1.0 + g * (g + k));
     const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
-    foldWithWeights(*this, sc, g, gs, k, ks, a1, a1s, value, slope);
+    const double eh = highInDb(*this) ? std::exp(logHigh0 + sc * logHighStep) : 1.0;
+    const double el = lowInDb(*this) ? std::exp(logLow0 + sc * logLowStep) : 1.0;
+    foldWithWeights(*this, sc, g, gs, k, ks, a1, a1s, eh, el, value, slope);
 }
 
 void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, double (*value)[6],
