@@ -4,6 +4,7 @@
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
+#include "SafeOutput.h"
 
 #include <cstdio>
 #include <iostream>
@@ -101,6 +102,15 @@ int runEchoEstimate(Args args)
     }
 
     const auto cwd = juce::File::getCurrentWorkingDirectory();
+    const auto chainFile = cwd.getChildFile(chainOut);
+    if (chainOut.isNotEmpty())
+        if (const auto problem =
+                checkOutputPath(chainFile, {{cwd.getChildFile(pos[0]), "input file"}}, {});
+            problem.isNotEmpty())
+        {
+            printError(problem);
+            return kExitFailure;
+        }
     juce::String error;
     auto input = AudioInput::open(cwd.getChildFile(pos[0]), error);
     if (input == nullptr)
@@ -169,14 +179,22 @@ int runEchoEstimate(Args args)
             stage.nonCausal = !dsp::checkEchoStability(stage.echo, rate).stable;
             chain.push(stage);
         }
-        const auto file = cwd.getChildFile(chainOut);
-        if (!file.replaceWithText(
-                chainToJson(chain, "Echo estimate of " + juce::File(pos[0]).getFileName())))
+        // Atomic: a temporary file beside the target, renamed over it when complete.
+        AtomicOutput output(chainFile);
+        auto problem = output.begin();
+        if (problem.isEmpty())
         {
-            printError("cannot write " + file.getFullPathName());
+            const auto text =
+                chainToJson(chain, "Echo estimate of " + juce::File(pos[0]).getFileName());
+            output.stream()->writeText(text, false, false, nullptr);
+            problem = output.commit();
+        }
+        if (problem.isNotEmpty())
+        {
+            printError(problem);
             return kExitFailure;
         }
-        std::cerr << "kerf: wrote " << file.getFullPathName() << "\n";
+        std::cerr << "kerf: wrote " << chainFile.getFullPathName() << "\n";
     }
     return kExitOk;
 }

@@ -70,7 +70,7 @@ const char* const kMainHelp =
     R"(kerf - Kerf's command line: filter audio files through a Kerf chain.
 
 Usage:
-  kerf render IN OUT --chain FILE [--bits 32|24|16]
+  kerf render IN OUT --chain FILE [--switch SECONDS:FILE]... [--glide MS] [--bits 32|24|16]
   kerf response --chain FILE [--rate HZ] [--points N | --freqs F1,F2,...] [--format csv|json]
                 [--channel left|right|mid|side] [--poles] [--plot FILE.png]
   kerf echo-estimate IN [--min-delay-ms A] [--max-delay-ms B] [--max-reflections K]
@@ -84,7 +84,8 @@ Subcommands:
   echo-estimate  find a recording's discrete reflections (delay, gain, confidence)
 
 Chain files are JSON ("format": "kerf-chain"); see README.md.
-Exit status: 0 success, 1 failure (message on stderr), 2 usage error.
+Exit status: 0 success, 1 failure (message on stderr), 2 usage error,
+130 / 143 stopped by SIGINT (Ctrl-C) / SIGTERM (no partial output is left).
 )";
 } // namespace
 

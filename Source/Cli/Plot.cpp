@@ -1,4 +1,5 @@
 #include "Plot.h"
+#include "SafeOutput.h"
 
 #include <juce_graphics/juce_graphics.h>
 
@@ -156,14 +157,16 @@ juce::String writeResponsePlot(const juce::File& file,
     g.drawText("Frequency (Hz), log scale", 0, height - 24, width, 20,
                juce::Justification::centred);
 
-    file.deleteFile();
-    juce::FileOutputStream out(file);
-    if (!out.openedOk())
-        return "cannot write " + file.getFullPathName() + ": " + out.getStatus().getErrorMessage();
-    juce::PNGImageFormat png;
-    if (!png.writeImageToStream(image, out))
-        return "writing the PNG failed";
-    return {};
+    // Atomic: a temporary file beside the target, renamed over it when complete.
+    AtomicOutput output(file);
+    if (auto problem = output.begin(); problem.isNotEmpty())
+        return problem;
+    {
+        juce::PNGImageFormat png;
+        if (!png.writeImageToStream(image, *output.stream()))
+            return "writing the PNG " + file.getFullPathName() + " failed";
+    }
+    return output.commit();
 }
 
 } // namespace kerf::cli

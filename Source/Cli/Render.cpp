@@ -2,15 +2,13 @@
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
+#include "SafeOutput.h"
 
 #include <juce_audio_formats/juce_audio_formats.h>
 
-#include <atomic>
 #include <cmath>
-#include <csignal>
 #include <iostream>
 #include <random>
-#include <sys/stat.h>
 
 namespace kerf::cli
 {
@@ -32,44 +30,12 @@ Options:
   --bits N       32 (default): 32-bit float, keeps values above full scale;
                  24 or 16: PCM with TPDF dither; clipped samples are counted and reported
 
-OUT is written to a temporary file in OUT's folder and renamed when complete, so a failure
-or Ctrl-C never leaves a partial file. kerf refuses to write over IN.
+OUT must be named .wav. It is written to a temporary file in OUT's folder and renamed over
+OUT when complete, so a failure or Ctrl-C never leaves a partial file and an existing OUT
+stays as it was until then. kerf refuses to write over IN or a chain file, also through
+a link. No output ceiling is applied (the plugin's output protection is not part of a
+render).
 )";
-
-namespace
-{
-
-std::atomic<bool> interrupted{false};
-
-extern "C" void onSignal(int)
-{
-    interrupted.store(true);
-}
-
-bool sameFile(const juce::File& a, const juce::File& b)
-{
-    struct stat sa
-    {
-    }, sb{};
-    if (::stat(a.getFullPathName().toRawUTF8(), &sa) == 0 &&
-        ::stat(b.getFullPathName().toRawUTF8(), &sb) == 0)
-        return sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
-    return a.getLinkedTarget() == b.getLinkedTarget();
-}
-
-/// Deletes the temporary output unless released.
-struct TempFileGuard
-{
-    juce::File file;
-    bool keep = false;
-    ~TempFileGuard()
-    {
-        if (!keep && file.existsAsFile())
-            file.deleteFile();
-    }
-};
-
-} // namespace
 
 namespace
 {
@@ -169,22 +135,14 @@ int runRender(Args args)
     const juce::File outFile = cwd.getChildFile(pos[1]);
 
     // The input itself is checked when it is opened (AudioInput): a directory, a missing or
-    // unreadable file each get their own message.
-    if (outFile == inFile || (outFile.exists() && sameFile(inFile, outFile)))
+    // unreadable file each get their own message. The output must be none of the files read.
+    std::vector<ReadFile> reads{{inFile, "input file"},
+                                {cwd.getChildFile(chainPath), "chain file"}};
+    for (const auto& sw : switches)
+        reads.push_back({cwd.getChildFile(sw.path), "chain file"});
+    if (const auto problem = checkOutputPath(outFile, reads, ".wav;.wave"); problem.isNotEmpty())
     {
-        printError("output " + outFile.getFullPathName() +
-                   " is the input file; kerf never writes over its input");
-        return kExitFailure;
-    }
-    if (outFile.isDirectory())
-    {
-        printError("output " + outFile.getFullPathName() + " is a directory");
-        return kExitFailure;
-    }
-    if (!outFile.getParentDirectory().isDirectory())
-    {
-        printError("output folder " + outFile.getParentDirectory().getFullPathName() +
-                   " does not exist");
+        printError(problem);
         return kExitFailure;
     }
 
@@ -304,22 +262,17 @@ int runRender(Args args)
         }
     }
 
-    TempFileGuard temp;
-    temp.file = outFile.getParentDirectory().getChildFile(
-        "." + outFile.getFileName() + ".kerf-" +
-        juce::String::toHexString(juce::Random().nextInt()) + ".tmp");
-    std::signal(SIGINT, onSignal);
-    std::signal(SIGTERM, onSignal);
-
+    // Written to a temporary file beside OUT and renamed over it when complete; a failure,
+    // SIGINT or SIGTERM removes the temporary (SafeOutput).
+    AtomicOutput output(outFile);
+    if (const auto problem = output.begin(); problem.isNotEmpty())
+    {
+        printError(problem);
+        return kExitFailure;
+    }
     std::unique_ptr<juce::AudioFormatWriter> writer;
     {
-        auto out = std::make_unique<juce::FileOutputStream>(temp.file);
-        if (!out->openedOk())
-        {
-            printError("cannot write in " + outFile.getParentDirectory().getFullPathName() + ": " +
-                       out->getStatus().getErrorMessage());
-            return kExitFailure;
-        }
+        auto out = output.stream();
         juce::WavAudioFormat wav;
         writer.reset(wav.createWriterFor(out.get(), rate, static_cast<unsigned int>(numChannels),
                                          bits, {}, 0));
@@ -346,18 +299,24 @@ int runRender(Args args)
     std::uniform_real_distribution<double> uniform(-0.5, 0.5);
     const double scale = bits == 32 ? 1.0 : std::ldexp(1.0, bits - 1);
     const double maxCode = scale - 1.0;
-    juce::int64 clipped = 0;
+    // PCM codes go to the writer as integers, left-justified in 32 bits, so each code lands
+    // exactly (JUCE's float-to-integer conversion scales by 2^(bits-1) - 1 and would put
+    // every sample above half scale one code low).
+    std::vector<std::vector<int>> codes(static_cast<std::size_t>(bits == 32 ? 0 : numChannels),
+                                        std::vector<int>(kBlock));
+    std::vector<const int*> codePointers;
+    for (const auto& c : codes)
+        codePointers.push_back(c.data());
+    codePointers.push_back(nullptr);
+    const int codeShift = 32 - bits;
+    juce::int64 clipped = 0; // PCM: samples beyond the largest code after dither
+    juce::int64 overs = 0;   // float: samples above full scale, kept
     float peak = 0.0f;
 
     const bool showProgress = length > static_cast<juce::int64>(5.0 * rate);
     int lastPercent = -1;
     for (juce::int64 done = 0; done < length;)
     {
-        if (interrupted.load())
-        {
-            printError("interrupted; no output written");
-            return 130;
-        }
         const int n = static_cast<int>(std::min<juce::int64>(kBlock, length - done));
         if (hasNonCausal)
         {
@@ -398,7 +357,10 @@ int runRender(Args args)
             {
                 peak = std::max(peak, std::abs(x[i]));
                 if (bits == 32)
+                {
+                    overs += std::abs(x[i]) > 1.0f ? 1 : 0;
                     continue;
+                }
                 // TPDF dither: the sum of two independent uniform variables of 1 LSB each.
                 double code = std::round(x[i] * scale + uniform(rng) + uniform(rng));
                 if (code > maxCode || code < -scale)
@@ -406,12 +368,16 @@ int runRender(Args args)
                     ++clipped;
                     code = std::clamp(code, -scale, maxCode);
                 }
-                x[i] = static_cast<float>(code / scale);
+                codes[static_cast<std::size_t>(ch)][static_cast<std::size_t>(i)] =
+                    static_cast<int>(code) * (1 << codeShift);
             }
         }
-        if (!writer->writeFromAudioSampleBuffer(buffer, 0, n))
+        if (!(bits == 32 ? writer->writeFromAudioSampleBuffer(buffer, 0, n)
+                         : writer->write(codePointers.data(), n)))
         {
-            printError("writing " + temp.file.getFullPathName() + " failed (disk full?)");
+            printError("writing " + outFile.getFullPathName() + " failed: " +
+                       (output.writeError().isNotEmpty() ? output.writeError()
+                                                         : juce::String("disk full?")));
             return kExitFailure;
         }
         done += n;
@@ -428,23 +394,12 @@ int runRender(Args args)
     if (showProgress)
         std::cerr << "\n";
 
-    if (!writer->flush())
+    writer.reset(); // writes the final header
+    if (const auto problem = output.commit(); problem.isNotEmpty())
     {
-        printError("writing " + temp.file.getFullPathName() + " failed");
+        printError(problem);
         return kExitFailure;
     }
-    writer.reset(); // closes the file and finalises the header
-    if (interrupted.load())
-    {
-        printError("interrupted; no output written");
-        return 130;
-    }
-    if (!temp.file.moveFileTo(outFile))
-    {
-        printError("cannot move the finished output into place at " + outFile.getFullPathName());
-        return kExitFailure;
-    }
-    temp.keep = true;
 
     if (nonFiniteInput > 0)
         std::cerr << "kerf: warning: " << nonFiniteInput
@@ -457,9 +412,10 @@ int runRender(Args args)
     if (bits != 32 && clipped > 0)
         std::cerr << "kerf: warning: " << clipped << " samples clipped at full scale in the "
                   << bits << "-bit output (lower the gain or write 32-bit float)\n";
-    else if (bits == 32 && peak > 1.0f)
-        std::cerr << "kerf: note: peak " << juce::Decibels::gainToDecibels(peak)
-                  << " dBFS is above full scale; the float output keeps it\n";
+    else if (bits == 32 && overs > 0)
+        std::cerr << "kerf: note: " << overs << " samples above full scale (peak "
+                  << formatNumber(juce::Decibels::gainToDecibels(static_cast<double>(peak)), 3)
+                  << " dBFS); the float output keeps them\n";
     return kExitOk;
 }
 

@@ -3,6 +3,7 @@
 #include "Commands.h"
 #include "Plot.h"
 #include "Response/SystemFunction.h"
+#include "SafeOutput.h"
 
 #include <cstdio>
 #include <iostream>
@@ -205,8 +206,16 @@ int runResponse(Args args)
         freqs = dsp::logSpacedFrequencies(10.0, nyquist * 0.9999, points);
     }
 
-    const auto chain =
-        readChainFile(juce::File::getCurrentWorkingDirectory().getChildFile(chainPath));
+    const auto cwd = juce::File::getCurrentWorkingDirectory();
+    if (plotPath.isNotEmpty())
+        if (const auto problem = checkOutputPath(
+                cwd.getChildFile(plotPath), {{cwd.getChildFile(chainPath), "chain file"}}, ".png");
+            problem.isNotEmpty())
+        {
+            printError(problem);
+            return kExitFailure;
+        }
+    const auto chain = readChainFile(cwd.getChildFile(chainPath));
     if (!chain.ok)
     {
         printError(chain.error);
@@ -221,7 +230,7 @@ int runResponse(Args args)
     const auto points = dsp::chainResponse(chain.chain, rate, freqs, view);
     if (plotPath.isNotEmpty())
     {
-        const auto file = juce::File::getCurrentWorkingDirectory().getChildFile(plotPath);
+        const auto file = cwd.getChildFile(plotPath);
         const juce::String title = juce::File(chainPath).getFileName() + "  |  " +
                                    juce::String(rate, 0) + " Hz  |  " + viewName + " path";
         const auto err = writeResponsePlot(file, points, rate, title);

@@ -8,8 +8,18 @@
 #include <juce_audio_formats/juce_audio_formats.h>
 
 #include <cmath>
+#include <csignal>
+#include <cstring>
+#include <fcntl.h>
+#include <filesystem>
+#include <fstream>
 #include <limits>
+#include <map>
 #include <random>
+#include <spawn.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
 
 using namespace kerf;
 
@@ -578,5 +588,601 @@ TEST_CASE("cli: render processes NaN and infinite input samples as silence and s
         CHECK(finite);
         // Not silenced as a whole: the signal is still there after the bad samples.
         CHECK(out.getMagnitude(0, 20000, 4000) > 0.05f);
+    }
+}
+
+// ---- Data safety (issue 8, item 3) ---------------------------------------------------------
+
+namespace
+{
+/// Runs kerf with `dir` as its working folder (relative paths resolve there).
+RunResult runKerfIn(const juce::File& dir, const juce::StringArray& args)
+{
+    auto quote = [](const juce::String& s) { return "'" + s.replace("'", "'\\''") + "'"; };
+    juce::String line = "cd " + quote(dir.getFullPathName()) + " && exec " + quote(KERF_CLI_PATH);
+    for (const auto& a : args)
+        line << " " << quote(a);
+    juce::ChildProcess proc;
+    RunResult r;
+    if (!proc.start(juce::StringArray{"/bin/sh", "-c", line},
+                    juce::ChildProcess::wantStdOut | juce::ChildProcess::wantStdErr))
+        return r;
+    r.output = proc.readAllProcessOutput();
+    proc.waitForProcessToFinish(60000);
+    r.exitCode = static_cast<int>(proc.getExitCode());
+    return r;
+}
+
+/// Every entry of a folder (hidden ones included) with its bytes (regular files), its
+/// target (symbolic links) and its modification time.
+std::map<std::string, std::string> snapshot(const juce::File& dir)
+{
+    namespace fs = std::filesystem;
+    std::map<std::string, std::string> out;
+    for (const auto& e : fs::directory_iterator(dir.getFullPathName().toStdString()))
+    {
+        struct stat st
+        {
+        };
+        REQUIRE(::lstat(e.path().c_str(), &st) == 0);
+        std::string what =
+            std::to_string(st.st_mtim.tv_sec) + "." + std::to_string(st.st_mtim.tv_nsec) + ":";
+        if (S_ISLNK(st.st_mode))
+            what += "link " + fs::read_symlink(e.path()).string();
+        else if (S_ISREG(st.st_mode))
+        {
+            std::ifstream f(e.path(), std::ios::binary);
+            what += std::string(std::istreambuf_iterator<char>(f), {});
+        }
+        else
+            what += "folder";
+        out[e.path().filename().string()] = what;
+    }
+    return out;
+}
+
+/// Names in `dir` that look like kerf's temporary files.
+std::vector<std::string> temporaries(const juce::File& dir)
+{
+    std::vector<std::string> out;
+    for (const auto& [name, what] : snapshot(dir))
+        if (name.find(".kerf-") != std::string::npos || name.find(".tmp") != std::string::npos)
+            out.push_back(name);
+    return out;
+}
+
+/// A 32-bit integer PCM WAV written byte by byte (JUCE writes 32 bits as float). Source:
+/// the RIFF WAVE layout (Microsoft/IBM, "Multimedia Programming Interface and Data
+/// Specifications 1.0", 1991; from memory): "RIFF" size "WAVE", "fmt " chunk of 16 bytes
+/// (format 1, channels, rate, bytes per second, block align, bits), "data" chunk,
+/// interleaved little-endian samples.
+void writeWavInt32(const juce::File& f, const std::vector<std::vector<std::int32_t>>& channels,
+                   int rate)
+{
+    const auto numChannels = static_cast<std::uint32_t>(channels.size());
+    const auto frames = static_cast<std::uint32_t>(channels[0].size());
+    juce::MemoryOutputStream s;
+    const std::uint32_t dataBytes = frames * numChannels * 4;
+    s.write("RIFF", 4);
+    s.writeInt(static_cast<int>(36 + dataBytes));
+    s.write("WAVE", 4);
+    s.write("fmt ", 4);
+    s.writeInt(16);
+    s.writeShort(1);
+    s.writeShort(static_cast<short>(numChannels));
+    s.writeInt(rate);
+    s.writeInt(rate * static_cast<int>(numChannels) * 4);
+    s.writeShort(static_cast<short>(numChannels * 4));
+    s.writeShort(32);
+    s.write("data", 4);
+    s.writeInt(static_cast<int>(dataBytes));
+    for (std::uint32_t i = 0; i < frames; ++i)
+        for (std::uint32_t ch = 0; ch < numChannels; ++ch)
+            s.writeInt(channels[ch][i]);
+    REQUIRE(f.replaceWithData(s.getData(), s.getDataSize()));
+}
+
+/// Writes `b` with one of JUCE's writers ("wav", "flac", "aiff").
+void writeAudio(const juce::File& f, const juce::AudioBuffer<float>& b, double rate,
+                const juce::String& format, int bits)
+{
+    f.deleteFile();
+    std::unique_ptr<juce::AudioFormat> fmt;
+    if (format == "flac")
+        fmt = std::make_unique<juce::FlacAudioFormat>();
+    else if (format == "aiff")
+        fmt = std::make_unique<juce::AiffAudioFormat>();
+    else
+        fmt = std::make_unique<juce::WavAudioFormat>();
+    auto* stream = new juce::FileOutputStream(f);
+    std::unique_ptr<juce::AudioFormatWriter> w(
+        fmt->createWriterFor(stream, rate, static_cast<unsigned>(b.getNumChannels()), bits, {}, 0));
+    if (w == nullptr)
+        delete stream;
+    REQUIRE(w != nullptr);
+    REQUIRE(w->writeFromAudioSampleBuffer(b, 0, b.getNumSamples()));
+}
+
+/// A deterministic test signal within +-0.9, different on every channel.
+juce::AudioBuffer<float> testSignal(int channels, int n, std::uint32_t seed)
+{
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<float> u(-0.9f, 0.9f);
+    juce::AudioBuffer<float> b(channels, n);
+    for (int ch = 0; ch < channels; ++ch)
+        for (int i = 0; i < n; ++i)
+            b.setSample(ch, i, u(rng));
+    return b;
+}
+
+const char* kEmptyChain = R"({"format": "kerf-chain", "version": 1, "stages": []})";
+} // namespace
+
+TEST_CASE("cli: no command writes over a file it reads, whatever the spelling or link",
+          "[cli][safety]")
+{
+    // Common practice for batch tools (data safety): refuse with a message, exit non-zero,
+    // and leave every file as it was (bytes and modification time).
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    t["next.json"].replaceWithText(kChain);
+    writeWav(t["in.wav"], testSignal(2, 4800, 1), 48000.0, 24);
+    REQUIRE(t["sub"].createDirectory());
+    REQUIRE(t["in.wav"].createSymbolicLink(t["soft.wav"], true));
+    REQUIRE(::link(t["in.wav"].getFullPathName().toRawUTF8(),
+                   t["hard.wav"].getFullPathName().toRawUTF8()) == 0);
+    REQUIRE(t.dir.createSymbolicLink(t["alias"], true));
+    REQUIRE(t["next.json"].createSymbolicLink(t["next-link.wav"], true));
+    const auto before = snapshot(t.dir);
+    const juce::String parentSpelling = "../" + t.dir.getFileName() + "/in.wav";
+
+    struct Case
+    {
+        const char* what;
+        juce::String out, role;
+    };
+    const std::vector<Case> cases{
+        {"the same path", t["in.wav"].getFullPathName(), "input file"},
+        {"./ spelling", "./in.wav", "input file"},
+        {"../folder spelling", parentSpelling, "input file"},
+        {"sub/.. spelling", "sub/../in.wav", "input file"},
+        {"a symbolic link", "soft.wav", "input file"},
+        {"a hard link", "hard.wav", "input file"},
+        {"through a linked folder", "alias/in.wav", "input file"},
+        {"the --chain file", "chain.json", "chain file"},
+        {"a link to the --switch file", "next-link.wav", "chain file"},
+    };
+    for (const auto& c : cases)
+    {
+        INFO(c.what);
+        const auto r = runKerfIn(t.dir, {"render", "in.wav", c.out, "--chain", "chain.json",
+                                         "--switch", "0.05:next.json"});
+        INFO(r.output);
+        CHECK(r.exitCode == 1);
+        CHECK(r.output.contains("is the " + c.role + "; kerf never writes over its input"));
+        CHECK(snapshot(t.dir) == before);
+    }
+    // The other commands that write files.
+    auto r = runKerfIn(t.dir, {"echo-estimate", "in.wav", "--write-chain", "./hard.wav"});
+    INFO(r.output);
+    CHECK(r.exitCode == 1);
+    CHECK(r.output.contains("is the input file"));
+    r = runKerfIn(t.dir, {"response", "--chain", "chain.json", "--plot", "sub/../chain.json"});
+    INFO(r.output);
+    CHECK(r.exitCode == 1);
+    CHECK(r.output.contains("is the chain file"));
+    CHECK(snapshot(t.dir) == before);
+}
+
+TEST_CASE("cli: a failed render leaves an existing output as it was and no temporary file",
+          "[cli][safety]")
+{
+    // Common practice (atomic replacement): the output is written to a temporary file and
+    // renamed over the target only when complete; any failure removes the temporary.
+    // Corrupt or unsupported files: a one-line message naming the file, exit status 1.
+    TempDir t;
+    t["chain.json"].replaceWithText(kChain);
+    t["strong.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 6.25, "gain": 1.5}]}]})");
+    writeWav(t["in.wav"], testSignal(2, 48000, 2), 48000.0, 24);
+    juce::MemoryBlock wav;
+    REQUIRE(t["in.wav"].loadFileAsData(wav));
+    // Half the file: the header promises 48000 samples, the render fails after a few blocks.
+    t["cut.wav"].replaceWithData(wav.getData(), wav.getSize() / 2);
+    t["header-cut.wav"].replaceWithData(wav.getData(), 20); // inside the "fmt " chunk
+    juce::MemoryBlock magic(wav);
+    std::memcpy(magic.getData(), "JUNK", 4); // not "RIFF"
+    t["magic.wav"].replaceWithData(magic.getData(), magic.getSize());
+    t["zero.wav"].create();                             // zero bytes
+    t["text.wav"].replaceWithText("just some notes\n"); // a text file named .wav
+    t["out.wav"].replaceWithText("an earlier render, kept until a new one is complete");
+    const auto before = snapshot(t.dir);
+
+    struct Case
+    {
+        const char* what;
+        juce::StringArray args;
+        const char* reason;
+        const char* names;
+    };
+    const std::vector<Case> cases{
+        {"truncated input, found mid-way",
+         {"render", "cut.wav", "out.wav", "--chain", "chain.json"},
+         "is truncated or damaged",
+         "cut.wav"},
+        {"unstable echo model",
+         {"render", "in.wav", "out.wav", "--chain", "strong.json"},
+         "stage 0",
+         "strong.json"},
+        {"truncated header",
+         {"render", "header-cut.wav", "out.wav", "--chain", "chain.json"},
+         "not a readable WAV, AIFF or FLAC file",
+         "header-cut.wav"},
+        {"wrong magic",
+         {"render", "magic.wav", "out.wav", "--chain", "chain.json"},
+         "not a readable WAV, AIFF or FLAC file",
+         "magic.wav"},
+        {"zero-length file",
+         {"render", "zero.wav", "out.wav", "--chain", "chain.json"},
+         "not a readable WAV, AIFF or FLAC file",
+         "zero.wav"},
+        {"text file named .wav",
+         {"render", "text.wav", "out.wav", "--chain", "chain.json"},
+         "not a readable WAV, AIFF or FLAC file",
+         "text.wav"},
+        {"unknown output extension",
+         {"render", "in.wav", "out.mp3", "--chain", "chain.json"},
+         "the name must end in .wav",
+         "out.mp3"},
+        {"output folder missing",
+         {"render", "in.wav", "nowhere/out.wav", "--chain", "chain.json"},
+         "does not exist",
+         "nowhere"},
+        {"output folder not writable",
+         {"render", "in.wav", "/proc/kerf-out.wav", "--chain", "chain.json"},
+         "cannot write in /proc",
+         "/proc"},
+        {"plot with another extension",
+         {"response", "--chain", "chain.json", "--plot", "out.jpg"},
+         "the name must end in .png",
+         "out.jpg"},
+    };
+    for (const auto& c : cases)
+    {
+        INFO(c.what);
+        const auto r = runKerfIn(t.dir, c.args);
+        INFO(r.output);
+        CHECK(r.exitCode == 1);
+        CHECK(r.output.contains(c.reason));
+        CHECK(r.output.contains(c.names));
+        CHECK(r.output.trim().startsWith("kerf: "));
+        CHECK(snapshot(t.dir) == before); // out.wav untouched, nothing new, no temporary
+    }
+    if (::geteuid() != 0)
+    {
+        // Permission bits do not bind root, so this part runs only for other users.
+        REQUIRE(::chmod(t["in.wav"].getFullPathName().toRawUTF8(), 0) == 0);
+        const auto r = runKerfIn(t.dir, {"render", "in.wav", "out.wav", "--chain", "chain.json"});
+        ::chmod(t["in.wav"].getFullPathName().toRawUTF8(), 0644);
+        CHECK(r.exitCode == 1);
+        CHECK(r.output.contains("cannot open input"));
+        CHECK(temporaries(t.dir).empty());
+    }
+
+    // A render that succeeds replaces the earlier output.
+    const auto r = runKerfIn(t.dir, {"render", "in.wav", "out.wav", "--chain", "chain.json"});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    auto reader = openWav(t["out.wav"]);
+    REQUIRE(reader != nullptr);
+    CHECK(reader->lengthInSamples == 48000);
+    // The other commands replace an earlier file the same way.
+    t["found.json"].replaceWithText("an earlier chain");
+    auto r2 = runKerfIn(t.dir, {"echo-estimate", "in.wav", "--write-chain", "found.json"});
+    INFO(r2.output);
+    CHECK(r2.exitCode == 0);
+    CHECK(readChainFile(t["found.json"]).ok);
+    t["plot.png"].replaceWithText("an earlier plot");
+    r2 = runKerfIn(t.dir, {"response", "--chain", "chain.json", "--plot", "plot.png"});
+    INFO(r2.output);
+    CHECK(r2.exitCode == 0);
+    juce::MemoryBlock png;
+    REQUIRE(t["plot.png"].loadFileAsData(png));
+    CHECK(png.getSize() > 8);
+    CHECK(std::memcmp(static_cast<const char*>(png.getData()) + 1, "PNG", 3) == 0); // signature
+    CHECK(temporaries(t.dir).empty());
+}
+
+TEST_CASE("cli: SIGINT or SIGTERM during a render leaves no output and no temporary file",
+          "[cli][safety]")
+{
+    // Common practice: a program stopped by SIGINT (Ctrl-C) exits with 128 + 2 = 130, by
+    // SIGTERM with 128 + 15 = 143, and a half-written file is not left behind; an output
+    // that existed before stays as it was.
+    TempDir t, logs;
+    // A long input and a heavy chain, so the render is still running when the signal comes.
+    t["heavy.json"].replaceWithText(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 3.31, "gain": 0.3},
+        {"delay_ms": 7.77, "gain": -0.2}, {"delay_ms": 11.13, "gain": 0.1},
+        {"delay_ms": 17.19, "gain": 0.1}]},
+      {"type": "echo_cancel", "reflections": [{"delay_ms": 5.51, "gain": 0.2},
+        {"delay_ms": 9.93, "gain": 0.1}, {"delay_ms": 13.37, "gain": -0.1},
+        {"delay_ms": 19.91, "gain": 0.1}]},
+      {"type": "comb", "mode": "feedback", "delay_ms": 2.123, "gain": 0.5, "mix": 0.3},
+      {"type": "comb", "mode": "feedback", "delay_ms": 3.321, "gain": 0.5, "mix": 0.3},
+      {"type": "comb", "mode": "feedforward", "delay_ms": 4.567, "gain": 0.5, "mix": 0.3},
+      {"type": "comb", "mode": "feedforward", "delay_ms": 5.789, "gain": 0.5, "mix": 0.3},
+      {"type": "peaking", "freq_hz": 100, "gain_db": 1, "q": 1},
+      {"type": "peaking", "freq_hz": 200, "gain_db": -1, "q": 1},
+      {"type": "peaking", "freq_hz": 400, "gain_db": 1, "q": 1},
+      {"type": "peaking", "freq_hz": 800, "gain_db": -1, "q": 1},
+      {"type": "peaking", "freq_hz": 1600, "gain_db": 1, "q": 1},
+      {"type": "peaking", "freq_hz": 3200, "gain_db": -1, "q": 1},
+      {"type": "peaking", "freq_hz": 6400, "gain_db": 1, "q": 1},
+      {"type": "peaking", "freq_hz": 12800, "gain_db": -1, "q": 1}]})");
+    constexpr int kSeconds = 480, kRate = 8000; // about 2 s of work on the build machine
+    writeWav(t["long.wav"], testSignal(1, kSeconds * kRate, 3), kRate, 16);
+
+    for (const int sig : {SIGINT, SIGTERM})
+    {
+        INFO("signal " << sig);
+        const bool earlier = sig == SIGTERM; // with SIGTERM, an earlier output exists
+        t["out.wav"].deleteFile();
+        if (earlier)
+            t["out.wav"].replaceWithText("an earlier render");
+        const auto before = snapshot(t.dir);
+        const auto errFile = logs["stderr.txt"];
+
+        posix_spawn_file_actions_t actions;
+        posix_spawn_file_actions_init(&actions);
+        posix_spawn_file_actions_addopen(&actions, STDERR_FILENO,
+                                         errFile.getFullPathName().toRawUTF8(),
+                                         O_WRONLY | O_CREAT | O_TRUNC, 0644);
+        const std::string kerfPath = KERF_CLI_PATH,
+                          in = t["long.wav"].getFullPathName().toStdString(),
+                          out = t["out.wav"].getFullPathName().toStdString(),
+                          chain = t["heavy.json"].getFullPathName().toStdString();
+        std::vector<char*> argv{const_cast<char*>(kerfPath.c_str()),
+                                const_cast<char*>("render"),
+                                const_cast<char*>(in.c_str()),
+                                const_cast<char*>(out.c_str()),
+                                const_cast<char*>("--chain"),
+                                const_cast<char*>(chain.c_str()),
+                                nullptr};
+        // Default dispositions in the child, even if this test runs with SIGINT ignored (a
+        // background job of a non-interactive shell), which kerf would respect.
+        posix_spawnattr_t attributes;
+        posix_spawnattr_init(&attributes);
+        sigset_t defaults;
+        sigemptyset(&defaults);
+        sigaddset(&defaults, SIGINT);
+        sigaddset(&defaults, SIGTERM);
+        posix_spawnattr_setsigdefault(&attributes, &defaults);
+        posix_spawnattr_setflags(&attributes, POSIX_SPAWN_SETSIGDEF);
+        pid_t pid = 0;
+        REQUIRE(posix_spawn(&pid, kerfPath.c_str(), &actions, &attributes, argv.data(), environ) ==
+                0);
+        posix_spawn_file_actions_destroy(&actions);
+        posix_spawnattr_destroy(&attributes);
+
+        // Wait until the temporary output exists and holds data (it has started writing).
+        bool writing = false, exitedEarly = false;
+        int status = 0;
+        for (int i = 0; i < 60000 && !writing && !exitedEarly; ++i)
+        {
+            for (const auto& name : temporaries(t.dir))
+                writing = writing || t.dir.getChildFile(name).getSize() > 0;
+            if (!writing)
+            {
+                exitedEarly = ::waitpid(pid, &status, WNOHANG) == pid;
+                ::usleep(1000);
+            }
+        }
+        if (!exitedEarly)
+        {
+            ::kill(pid, sig);
+            REQUIRE(::waitpid(pid, &status, 0) == pid);
+        }
+        INFO(errFile.loadFileAsString());
+        REQUIRE(writing);
+        REQUIRE_FALSE(exitedEarly);
+        REQUIRE(WIFEXITED(status));
+        CHECK(WEXITSTATUS(status) == 128 + sig);
+        CHECK(errFile.loadFileAsString().contains("interrupted; no output written"));
+        CHECK(temporaries(t.dir).empty());
+        CHECK(snapshot(t.dir) == before); // no output, or the earlier one untouched
+    }
+}
+
+TEST_CASE("cli: render keeps sample rate, channel count and length exactly", "[cli][safety]")
+{
+    // Issue 8 (data safety): the output has the input's rate, channels and length in
+    // samples, whatever the input format; through an empty chain the samples themselves
+    // pass unchanged into a float output. For the 32-bit integer file the expected values
+    // are computed here (a code c reads as c / 2^31: the usual PCM-to-float scaling, common
+    // practice); for the others they are what the file decodes to.
+    TempDir t;
+    t["empty.json"].replaceWithText(kEmptyChain);
+    juce::AudioFormatManager formats;
+    formats.registerBasicFormats();
+
+    struct Input
+    {
+        const char* format;
+        int bits;
+        const char* name;
+    };
+    const std::vector<Input> inputs{{"wav", 16, "in16.wav"},   {"wav", 24, "in24.wav"},
+                                    {"wav", 32, "inf32.wav"},  {"int32", 32, "in32.wav"},
+                                    {"flac", 16, "in16.flac"}, {"flac", 24, "in24.flac"},
+                                    {"aiff", 24, "in24.aiff"}};
+    const int channelCounts[] = {1, 2, 6, 8};
+    const double rates[] = {8000.0, 22050.0, 44100.0, 48000.0, 96000.0, 192000.0};
+    int run = 0;
+    for (const auto& input : inputs)
+        for (const int channels : channelCounts)
+        {
+            const double rate = rates[run % 6];
+            const int length = 4096 * 2 + 1 + 97 * run; // not a multiple of the block size
+            const int outBits = run % 3 == 0 ? 32 : (run % 3 == 1 ? 24 : 16);
+            ++run;
+            INFO(input.name << ", " << channels << " channels, " << rate << " Hz, " << length
+                            << " samples, output " << outBits << " bits");
+            const auto inFile = t[input.name];
+            auto signal = testSignal(channels, length, static_cast<std::uint32_t>(run));
+            if (juce::String(input.format) == "int32")
+            {
+                std::vector<std::vector<std::int32_t>> codes(static_cast<std::size_t>(channels));
+                for (int ch = 0; ch < channels; ++ch)
+                    for (int i = 0; i < length; ++i)
+                    {
+                        // Codes with all 32 bits in use; as float they round to 24 bits.
+                        const auto c = static_cast<std::int32_t>(
+                            std::lround(signal.getSample(ch, i) * 2147483647.0));
+                        codes[static_cast<std::size_t>(ch)].push_back(c);
+                        signal.setSample(ch, i, static_cast<float>(c / 2147483648.0));
+                    }
+                writeWavInt32(inFile, codes, static_cast<int>(rate));
+            }
+            else
+            {
+                writeAudio(inFile, signal, rate, input.format, input.bits);
+                // The reference is what the input file holds, as its decoder reads it.
+                std::unique_ptr<juce::AudioFormatReader> back(formats.createReaderFor(inFile));
+                REQUIRE(back != nullptr);
+                REQUIRE(back->lengthInSamples == length);
+                REQUIRE(back->read(&signal, 0, length, 0, true, true));
+            }
+            const auto outFile = t["out.wav"];
+            const auto r =
+                runKerf({"render", inFile.getFullPathName(), outFile.getFullPathName(), "--chain",
+                         t["empty.json"].getFullPathName(), "--bits", juce::String(outBits)});
+            INFO(r.output);
+            REQUIRE(r.exitCode == 0);
+            auto reader = openWav(outFile);
+            REQUIRE(reader != nullptr);
+            CHECK(reader->sampleRate == rate);
+            CHECK(static_cast<int>(reader->numChannels) == channels);
+            CHECK(reader->lengthInSamples == length);
+            CHECK(static_cast<int>(reader->bitsPerSample) == outBits);
+            CHECK(reader->usesFloatingPointData == (outBits == 32));
+            juce::AudioBuffer<float> out(channels, length);
+            REQUIRE(reader->read(&out, 0, length, 0, true, true));
+            // Float output: the same samples; PCM output: within the dither's two LSB.
+            const double tolerance = outBits == 32 ? 0.0 : 2.0 / std::ldexp(1.0, outBits - 1);
+            double worst = 0.0;
+            for (int ch = 0; ch < channels; ++ch)
+                for (int i = 0; i < length; ++i)
+                    worst = std::max(worst, std::abs(static_cast<double>(out.getSample(ch, i)) -
+                                                     signal.getSample(ch, i)));
+            CHECK(worst <= tolerance);
+        }
+
+    // An input with no samples gives an output with no samples.
+    writeWav(t["none.wav"], juce::AudioBuffer<float>(2, 0), 44100.0, 16);
+    const auto r =
+        runKerf({"render", t["none.wav"].getFullPathName(), t["none-out.wav"].getFullPathName(),
+                 "--chain", t["empty.json"].getFullPathName()});
+    INFO(r.output);
+    REQUIRE(r.exitCode == 0);
+    auto reader = openWav(t["none-out.wav"]);
+    REQUIRE(reader != nullptr);
+    CHECK(reader->lengthInSamples == 0);
+    CHECK(reader->numChannels == 2);
+    CHECK(reader->sampleRate == 44100.0);
+}
+
+TEST_CASE("cli: float output keeps overs; PCM output counts exactly the samples it clips",
+          "[cli][safety]")
+{
+    TempDir t;
+    const double rate = 48000.0;
+    const int n = 48000;
+
+    SECTION("a +6 dB section: the float file keeps the overs and says how many")
+    {
+        // Cookbook peaking section (R. Bristow-Johnson, Audio EQ Cookbook): gain at f0 is
+        // exactly the set gain, so a 0.8 sine at f0 comes out near 0.8 * 10^(6/20) = 1.6.
+        // The expected samples come from the Dsp library (render equals it bit for bit,
+        // tested above).
+        const char* chainText = R"({"format": "kerf-chain", "version": 1, "stages": [
+          {"type": "peaking", "freq_hz": 1000, "gain_db": 6, "q": 1, "design": "bilinear"}]})";
+        t["plus6.json"].replaceWithText(chainText);
+        juce::AudioBuffer<float> in(1, n);
+        for (int i = 0; i < n; ++i)
+            in.setSample(0, i,
+                         static_cast<float>(0.8 * std::sin(2.0 * juce::MathConstants<double>::pi *
+                                                           1000.0 * i / rate)));
+        writeWav(t["in.wav"], in, rate, 32);
+        const auto chain = parseChainJson(chainText);
+        REQUIRE(chain.ok);
+        dsp::ChainProcessor direct;
+        direct.prepare(rate, 512, 1);
+        direct.setChain(chain.chain);
+        juce::AudioBuffer<float> expected(in);
+        direct.process(expected.getArrayOfWritePointers(), 1, n);
+        int overs = 0;
+        for (int i = 0; i < n; ++i)
+            overs += std::abs(expected.getSample(0, i)) > 1.0f ? 1 : 0;
+        REQUIRE(overs > 1000);
+
+        const auto r =
+            runKerf({"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(),
+                     "--chain", t["plus6.json"].getFullPathName()});
+        INFO(r.output);
+        REQUIRE(r.exitCode == 0);
+        CHECK(r.output.contains(juce::String(overs) + " samples above full scale"));
+        auto reader = openWav(t["out.wav"]);
+        REQUIRE(reader != nullptr);
+        juce::AudioBuffer<float> out(1, n);
+        REQUIRE(reader->read(&out, 0, n, 0, true, true));
+        int mismatches = 0;
+        float peak = 0.0f;
+        for (int i = 0; i < n; ++i)
+        {
+            mismatches += out.getSample(0, i) != expected.getSample(0, i) ? 1 : 0;
+            peak = std::max(peak, std::abs(out.getSample(0, i)));
+        }
+        CHECK(mismatches == 0);
+        CHECK(peak == Approx(0.8 * std::pow(10.0, 6.0 / 20.0)).epsilon(0.01));
+    }
+
+    SECTION("PCM: the count equals the samples beyond full scale")
+    {
+        // Known overs through an empty chain: 37 samples at +-1.25 or +-1.5, the rest within
+        // +-0.5, so the dither (at most 1 LSB each way) cannot make or save a clip.
+        t["empty.json"].replaceWithText(kEmptyChain);
+        auto in = testSignal(2, n, 7);
+        in.applyGain(0.5f / 0.9f);
+        int known = 0;
+        for (int k = 0; k < 37; ++k)
+        {
+            const int ch = k % 2, i = 1000 + 997 * k;
+            in.setSample(ch, i, k % 3 == 0 ? -1.5f : (k % 3 == 1 ? 1.25f : 1.5f));
+            ++known;
+        }
+        writeWav(t["in.wav"], in, rate, 32);
+        for (const int bits : {16, 24})
+        {
+            INFO(bits << " bits");
+            const auto r = runKerf(
+                {"render", t["in.wav"].getFullPathName(), t["out.wav"].getFullPathName(), "--chain",
+                 t["empty.json"].getFullPathName(), "--bits", juce::String(bits)});
+            INFO(r.output);
+            REQUIRE(r.exitCode == 0);
+            CHECK(r.output.contains(juce::String(known) + " samples clipped at full scale in the " +
+                                    juce::String(bits) + "-bit output"));
+            // Read back: the clipped samples sit at the largest code of their sign.
+            auto reader = openWav(t["out.wav"]);
+            REQUIRE(reader != nullptr);
+            juce::AudioBuffer<float> out(2, n);
+            REQUIRE(reader->read(&out, 0, n, 0, true, true));
+            const float top = static_cast<float>(1.0 - std::ldexp(1.0, 1 - bits));
+            int atFullScale = 0;
+            for (int ch = 0; ch < 2; ++ch)
+                for (int i = 0; i < n; ++i)
+                    atFullScale += (out.getSample(ch, i) >= top || out.getSample(ch, i) <= -1.0f);
+            CHECK(atFullScale == known);
+        }
     }
 }
