@@ -624,7 +624,8 @@ std::map<std::string, std::string> snapshot(const juce::File& dir)
         struct stat st
         {
         };
-        REQUIRE(::lstat(e.path().c_str(), &st) == 0);
+        if (::lstat(e.path().c_str(), &st) != 0)
+            continue; // removed meanwhile (a temporary while kerf runs)
         std::string what =
             std::to_string(st.st_mtim.tv_sec) + "." + std::to_string(st.st_mtim.tv_nsec) + ":";
         if (S_ISLNK(st.st_mode))
