@@ -603,6 +603,8 @@ void ChainProcessor::startCubic(int idx, const double end[6], const double endSl
     // The Hermite cubic from here (exact values, the slope the last knot found) to the
     // next knot: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
     const double K = length;
+    // Powers of two in the usual case, where these inverses are exact.
+    const double inv2 = 1.0 / (K * K), inv3 = inv2 / K;
     const auto u = static_cast<std::size_t>(idx);
     Glide& g = glides[u];
     RampCubic& q = rampCubic[u];
@@ -612,8 +614,8 @@ void ChainProcessor::startCubic(int idx, const double end[6], const double endSl
         const double rise = end[m] - b - s0 * K, turn = endSlope[m] - s0;
         q.c[0].v[m] = b;
         q.c[1].v[m] = s0;
-        q.c[2].v[m] = (3.0 * rise - turn * K) / (K * K);
-        q.c[3].v[m] = (turn * K - 2.0 * rise) / (K * K * K);
+        q.c[2].v[m] = (3.0 * rise - turn * K) * inv2;
+        q.c[3].v[m] = (turn * K - 2.0 * rise) * inv3;
         rampKnot[u].v[m] = end[m];
         g.slope[m] = endSlope[m];
     }

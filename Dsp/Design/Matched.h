@@ -4,7 +4,9 @@
 #include "Biquad.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
+#include <cstddef>
 #include <utility>
 
 namespace kerf::dsp::matched
@@ -36,6 +38,26 @@ BiquadCoeffs inverse(const BiquadCoeffs& c) noexcept;
 /// True when the section's poles lie strictly inside the unit circle (Jury's conditions for a
 /// second-order polynomial, common practice).
 bool isStable(const BiquadCoeffs& c) noexcept;
+
+/// sin x for 0 <= x <= pi/2 from its Taylor series to x^23 (truncation below 1e-20 there;
+/// common practice), nested as 1 - x^2/(2k (2k + 1)) (...); the library's sin elsewhere.
+inline double sinUpToHalfPi(double x) noexcept
+{
+    if (!(x >= 0.0 && x <= 1.5707963267948966))
+        return std::sin(x);
+    constexpr auto inverse = []
+    {
+        std::array<double, 12> a{};
+        for (int k = 1; k < 12; ++k)
+            a[static_cast<std::size_t>(k)] = 1.0 / ((2.0 * k) * (2.0 * k + 1.0));
+        return a;
+    }();
+    const double x2 = x * x;
+    double s = 1.0;
+    for (int k = 11; k >= 1; --k)
+        s = 1.0 - x2 * inverse[static_cast<std::size_t>(k)] * s;
+    return x * s;
+}
 
 /// Solves a x = b in place for a small dense system (Gaussian elimination with partial
 /// pivoting, common practice); false when a pivot vanishes. The solution replaces b.
@@ -91,7 +113,7 @@ bool fitMagnitudeSquared(const Target& target, double omega0, double omegaMax,
     constexpr int kPasses = 3;
     auto phis = [](double w, double& p0, double& p1, double& p2)
     {
-        const double s = std::sin(0.5 * w);
+        const double s = sinUpToHalfPi(0.5 * w); // w <= 0.98 pi (kMaxDesignFraction)
         p1 = s * s;
         p0 = 1.0 - p1;
         p2 = 4.0 * p0 * p1;

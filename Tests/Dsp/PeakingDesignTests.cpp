@@ -1,9 +1,11 @@
 // Peaking section design against the Audio EQ Cookbook.
+#include "Design/Matched.h"
 #include "Design/Peaking.h"
 #include "Response/SystemFunction.h"
 
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <numbers>
@@ -68,4 +70,19 @@ TEST_CASE("design frequencies clamp below Nyquist", "[design]")
     CHECK(1.0 + c.a1 + c.a2 > 0.0);
     CHECK(1.0 - c.a1 + c.a2 > 0.0);
     CHECK(std::abs(c.a2) < 1.0);
+}
+
+TEST_CASE("accurate designs: the fit's sine series agrees with the library's sine", "[design]")
+{
+    // Source: the C library's std::sin (within an ulp or so of the true value); the series
+    // (Taylor to x^23) is used on 0..pi/2, where its truncation is below 1e-20.
+    double worst = 0.0;
+    for (int i = 0; i <= 100000; ++i)
+    {
+        const double x = 1.5707963267948966 * i / 100000.0;
+        worst = std::max(worst, std::abs(matched::sinUpToHalfPi(x) - std::sin(x)));
+    }
+    INFO("largest difference " << worst);
+    CHECK(worst <= 4.0e-16);
+    CHECK(matched::sinUpToHalfPi(2.0) == std::sin(2.0)); // outside: the library's
 }
