@@ -206,11 +206,29 @@ __attribute__((target("avx,fma"))) __m256d exp4(__m256d x) noexcept
     return _mm256_mul_pd(p, scale);
 }
 
+/// A weight as foldWithWeights takes it, four lanes at once: linearly (a weight that does
+/// not move is its own linear path, exactly) or, in the lanes marked in `db`, sign e in dB.
+__attribute__((target("avx,fma"))) inline void
+weight4(__m256d s, const double* from, const double* lin, const double* sign, const double* db,
+        const double* e, const double* step, __m256d& w, __m256d& ws) noexcept
+{
+    const __m256d linStep = _mm256_load_pd(lin);
+    const __m256d wLin = _mm256_fmadd_pd(s, linStep, _mm256_load_pd(from));
+    const __m256d wDb = _mm256_mul_pd(_mm256_load_pd(sign), _mm256_load_pd(e));
+    const __m256d mask = _mm256_load_pd(db);
+    w = _mm256_blendv_pd(wLin, wDb, mask);
+    ws = _mm256_blendv_pd(linStep, _mm256_mul_pd(wDb, _mm256_load_pd(step)), mask);
+}
+
 __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* s,
                                                   int count, double (*value)[6],
                                                   double (*slope)[6]) noexcept
 {
     alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4], lh[4], dh[4], ll[4], dl[4];
+    // The weights: high and low from, step (linear) and sign (in dB) with the lanes moving
+    // in dB marked; band from and step.
+    alignas(32) double hFrom[4], hLin[4], hSign[4], hDb[4], lFrom[4], lLin[4], lSign[4], lDb[4],
+        bFrom[4], bTo[4];
     bool anyHigh = false, anyLow = false;
     for (int i = 0; i < 4; ++i)
     {
@@ -228,6 +246,16 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         dh[i] = high ? p.logHighStep : 0.0;
         ll[i] = low ? p.logLow0 : 0.0;
         dl[i] = low ? p.logLowStep : 0.0;
+        hFrom[i] = p.from.mHigh;
+        hLin[i] = p.to.mHigh - p.from.mHigh;
+        hSign[i] = p.signHigh;
+        hDb[i] = high ? -1.0 : 0.0; // all bits set where the weight moves in dB
+        lFrom[i] = p.from.mLow;
+        lLin[i] = p.to.mLow - p.from.mLow;
+        lSign[i] = p.signLow;
+        lDb[i] = low ? -1.0 : 0.0;
+        bFrom[i] = p.from.mBand;
+        bTo[i] = p.to.mBand;
     }
     const __m256d sv4 = _mm256_load_pd(sv);
     // The weights that move in dB: their magnitudes, four at a time.
@@ -247,16 +275,31 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         _mm256_fmadd_pd(g, ks, _mm256_mul_pd(gs, _mm256_add_pd(_mm256_add_pd(g, g), k)));
     const __m256d a1s =
         _mm256_mul_pd(_mm256_sub_pd(_mm256_setzero_pd(), _mm256_mul_pd(a1, a1)), inner);
-    alignas(32) double gv[4], gsv[4], kv[4], ksv[4], a1v[4], a1sv[4];
-    _mm256_store_pd(gv, g);
-    _mm256_store_pd(gsv, gs);
-    _mm256_store_pd(kv, k);
-    _mm256_store_pd(ksv, ks);
-    _mm256_store_pd(a1v, a1);
-    _mm256_store_pd(a1sv, a1s);
+    __m256d mh, mhs, ml, mls;
+    weight4(sv4, hFrom, hLin, hSign, hDb, eh, dh, mh, mhs);
+    weight4(sv4, lFrom, lLin, lSign, lDb, el, dl, ml, mls);
+    const __m256d bFrom4 = _mm256_load_pd(bFrom), bTo4 = _mm256_load_pd(bTo);
+    const __m256d mbs = _mm256_sub_pd(bTo4, bFrom4);
+    // At s = 1 exactly the end value (from + (to - from) need not round to it).
+    const __m256d mb = _mm256_blendv_pd(_mm256_fmadd_pd(sv4, mbs, bFrom4), bTo4,
+                                        _mm256_cmp_pd(sv4, one, _CMP_GE_OQ));
+    const __m256d v[6] = {a1, _mm256_mul_pd(g, a1),        g,
+                          mh, _mm256_fnmadd_pd(mh, k, mb), _mm256_sub_pd(ml, mh)};
+    const __m256d d[6] = {
+        a1s, _mm256_fmadd_pd(gs, a1, _mm256_mul_pd(g, a1s)),          gs,
+        mhs, _mm256_fnmadd_pd(mh, ks, _mm256_fnmadd_pd(mhs, k, mbs)), _mm256_sub_pd(mls, mhs)};
+    alignas(32) double vt[6][4], dt[6][4];
+    for (int m = 0; m < 6; ++m)
+    {
+        _mm256_store_pd(vt[m], v[m]);
+        _mm256_store_pd(dt[m], d[m]);
+    }
     for (int i = 0; i < count; ++i)
-        foldWithWeights(*paths[i], sv[i], gv[i], gsv[i], kv[i], ksv[i], a1v[i], a1sv[i], eh[i],
-                        el[i], value[i], slope[i]);
+        for (int m = 0; m < 6; ++m)
+        {
+            value[i][m] = vt[m][i];
+            slope[i][m] = dt[m][i];
+        }
 }
 
 bool hasAvxFma() noexcept
