@@ -82,7 +82,7 @@ void KerfEditor::resized()
     echoRow.removeFromRight(4);
     applyButton.setBounds(echoRow.removeFromRight(120));
     echoStatus.setBounds(echoRow.reduced(6, 0));
-    auto top = area.removeFromTop(area.getHeight() * 5 / 11);
+    auto top = area.removeFromTop(area.getHeight() * 6 / 11);
     protectionLabel.setBounds(top.getRight() - 120, top.getY() + 4, 116, 18);
     response.setBounds(top.reduced(4));
     controls.setBounds(area);
@@ -91,7 +91,10 @@ void KerfEditor::resized()
 void KerfEditor::refreshResponse()
 {
     const double rate = kerfProcessor.getSampleRate() > 0 ? kerfProcessor.getSampleRate() : 48000.0;
-    response.setChain(kerfProcessor.exportChain(), rate);
+    // The chain's H(z) and the output gain: what the plugin does to a signal below the
+    // protection ceiling. Only a change re-evaluates (ResponseView::setChain compares).
+    const auto* gain = kerfProcessor.state().getRawParameterValue(ids::outputGain);
+    response.setChain(kerfProcessor.exportChain(), rate, gain != nullptr ? gain->load() : 0.0);
 }
 
 void KerfEditor::updateEchoPanel()

@@ -20,7 +20,8 @@ public:
     void paint(juce::Graphics& g) override;
     void resized() override;
 
-    /// Pulls the current chain into the response view now (the timer does it 30 times a second).
+    /// Pulls the current chain into the response view now (the timer does it 30 times a
+    /// second); the view evaluates H(z) again only when the chain or output gain changed.
     void refreshResponse();
     ResponseView& responseView() noexcept { return response; }
 

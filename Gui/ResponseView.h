@@ -1,6 +1,8 @@
 #pragma once
-// Draws the magnitude response of the current chain, computed from its system function.
+// The response display: magnitude, unwrapped phase or group delay of the chain's exact
+// system function H(z) over a log-frequency axis, with each stage's own curve on demand.
 #include "Chain.h"
+#include "Response/SystemFunction.h"
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
@@ -9,33 +11,116 @@
 namespace kerf
 {
 
-/// A log-frequency magnitude plot of a chain's exact H(z). Message thread only.
+/// Draws what the chain does, computed from its system function (Response/SystemFunction):
+/// every enabled stage, combs and echo cancellers included. Each pixel column shows the
+/// minimum and maximum of H over the column's frequency interval, sampled densely enough
+/// for the chain's longest delay (and at the combs' exact peaks and notches), so fine comb
+/// structure draws as a filled band instead of an aliased line. Evaluation runs on the
+/// message thread, and only when the chain, the sample rate, the view or the size changed.
 class ResponseView : public juce::Component
 {
 public:
+    /// What the curve shows.
+    enum class Mode
+    {
+        magnitude,  ///< dB
+        phase,      ///< degrees, unwrapped from near 0 Hz upwards
+        groupDelay, ///< milliseconds
+    };
+
     ResponseView();
 
-    /// Recomputes the curve when the chain or sample rate differ from the last call.
-    void setChain(const dsp::ChainSpec& chain, double sampleRateHz);
+    /// Takes the chain to draw; re-evaluates only when something differs from the last call.
+    /// outputGainDb (the plugin's output gain) shifts the magnitude curve.
+    void setChain(const dsp::ChainSpec& chain, double sampleRateHz, double outputGainDb = 0.0);
+
+    void setMode(Mode newMode);
+    Mode mode() const noexcept { return currentMode; }
+    /// Draws each enabled stage's own contribution under the whole chain's curve.
+    void setShowStages(bool show);
+    bool showsStages() const noexcept { return showStages; }
+    /// Which path through a stereo chain the curve follows (left, right, mid or side).
+    void setChannelView(dsp::ChannelView view);
+    dsp::ChannelView channelView() const noexcept { return pathView; }
+    /// Magnitude scale: +-halfRangeDb around 0 dB (12, 24 or 48 from the range button).
+    void setMagnitudeRangeDb(double halfRangeDb);
+    double magnitudeRangeDb() const noexcept { return magnitudeHalfRange; }
 
     void paint(juce::Graphics& g) override;
     void resized() override;
 
-    /// Display range.
-    static constexpr double kLowHz = 10.0, kHighHz = 24000.0;
-    static constexpr double kTopDb = 24.0, kBottomDb = -24.0;
+    // ---- Geometry (public so that tests check where the curve is drawn) -----------------
+    /// The plot rectangle in this component's coordinates (axes labels lie outside it).
+    juce::Rectangle<int> plotArea() const noexcept { return plot; }
+    /// Frequency axis: 20 Hz to the Nyquist frequency, at most 24 kHz.
+    static constexpr double kLowHz = 20.0;
+    double highHz() const noexcept;
+    /// x in this component's coordinates; pixel column floor(x) holds that frequency.
+    float xForFrequency(double freqHz) const noexcept;
+    /// The frequency at a (fractional) x position.
+    double frequencyForX(double x) const noexcept;
+    /// y of a value in the current mode's unit (dB, degrees or ms).
+    float yForValue(double value) const noexcept;
+    /// y of a magnitude in dB on the magnitude scale (whatever the mode).
+    float yForDb(double db) const noexcept;
+    /// The current vertical range, in the mode's unit.
+    double bottomValue() const noexcept { return rangeLow; }
+    double topValue() const noexcept { return rangeHigh; }
+    /// The whole chain's curve colour (opaque; nothing else in the plot uses it).
+    static juce::Colour curveColour() noexcept { return juce::Colour(0xfff2a65a); }
 
-    /// Pixel mappings (public so that tests can check where the curve is drawn).
-    float xForFrequency(double freqHz) const;
-    float yForDb(double db) const;
+    // ---- What the last evaluation did (tests, diagnostics) --------------------------------
+    /// Per plot column: lowest and highest value over the column's frequency interval.
+    struct Column
+    {
+        double low = 0.0, high = 0.0;
+    };
+    const std::vector<Column>& columns() const noexcept { return total; }
+    /// How many times the response has been evaluated since construction.
+    int evaluationCount() const noexcept { return evaluations; }
+    /// Frequencies evaluated in the last evaluation (whole chain, one path).
+    int pointsEvaluated() const noexcept { return static_cast<int>(grid.size()); }
+    /// Milliseconds the last evaluation took (all curves).
+    double lastEvaluationMs() const noexcept { return evaluationMs; }
 
 private:
-    void recompute();
+    void evaluate();
+    void layoutControls();
+    void buildGrid();
+    std::vector<Column> evaluateColumns(const dsp::ChainSpec& chain, bool withGain) const;
+    void chooseRange();
+    void paintGrid(juce::Graphics& g);
+    void paintColumns(juce::Graphics& g, const std::vector<Column>& cols, juce::Colour colour,
+                      float minThickness) const;
 
     dsp::ChainSpec chain;
     double sampleRate = 48000.0;
-    std::vector<double> magnitudeDb; // one per pixel column
-    juce::Path curve;
+    double gainDb = 0.0;
+    bool haveChain = false;
+    Mode currentMode = Mode::magnitude;
+    bool showStages = false;
+    dsp::ChannelView pathView = dsp::ChannelView::left;
+    double magnitudeHalfRange = 24.0;
+    double rangeLow = -24.0, rangeHigh = 24.0, rangeStep = 6.0;
+
+    juce::Rectangle<int> plot;
+    std::vector<double> grid;     // ascending frequencies of the dense grid
+    std::vector<int> columnStart; // column c spans grid[columnStart[c]..columnStart[c + 1]]
+    std::vector<double> leadIn;   // below kLowHz, so phase unwraps from near 0 Hz
+    std::vector<Column> total;    // the whole chain
+    struct StageCurve
+    {
+        juce::String label;
+        juce::Colour colour;
+        std::vector<Column> columns;
+    };
+    std::vector<StageCurve> stageCurves;
+    int evaluations = 0;
+    double evaluationMs = 0.0;
+
+    juce::TextButton magnitudeButton{"Magnitude"}, phaseButton{"Phase"}, delayButton{"Group delay"},
+        stagesButton{"Stages"}, rangeButton{"+-24 dB"};
+    juce::ComboBox pathBox;
 };
 
 } // namespace kerf
