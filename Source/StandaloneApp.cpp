@@ -3,10 +3,13 @@
 // choice, aimed at instruments and feedback loops) would leave a live rig silent. The
 // output protection stays on by default, and the user's own mute choice is remembered.
 // An "All flat" button sits in the title bar beside Options, always in reach on a live rig;
-// Ctrl+Z and Ctrl+Shift+Z undo and redo.
+// Ctrl+Z and Ctrl+Shift+Z undo and redo. `--screenshot PATH` writes a PNG of the window once
+// it is on screen and quits (the Xvfb test's artefact).
 #include "PluginProcessor.h"
 
 #include <juce_audio_utils/juce_audio_utils.h>
+
+#include <cstdio>
 
 #if JucePlugin_Build_Standalone && JUCE_USE_CUSTOM_PLUGIN_STANDALONE_APP
 
@@ -88,7 +91,7 @@ public:
     bool moreThanOneInstanceAllowed() override { return true; }
     void anotherInstanceStarted(const juce::String&) override {}
 
-    void initialise(const juce::String&) override
+    void initialise(const juce::String& commandLine) override
     {
         auto* settings = appProperties.getUserSettings();
         const bool firstStart = !settings->containsKey("shouldMuteInput");
@@ -100,10 +103,26 @@ public:
         if (firstStart)
             window->getPluginHolder()->getMuteInputValue().setValue(false);
         window->setVisible(true);
+        const auto args = juce::StringArray::fromTokens(commandLine, true);
+        const int at = args.indexOf("--screenshot");
+        if (at >= 0)
+        {
+            const auto path = args[at + 1].unquoted();
+            if (path.isEmpty())
+            {
+                std::fprintf(stderr, "Kerf: --screenshot needs a file name\n");
+                setApplicationReturnValue(2);
+                quit();
+                return;
+            }
+            screenshot = std::make_unique<Screenshot>(
+                *this, juce::File::getCurrentWorkingDirectory().getChildFile(path));
+        }
     }
 
     void shutdown() override
     {
+        screenshot = nullptr;
         window = nullptr;
         appProperties.saveIfNeeded();
     }
@@ -116,8 +135,51 @@ public:
     }
 
 private:
+    /// Waits until the window is on the desktop (it has a native peer and is showing) and
+    /// its editor has been up for a second (the response view's timer has run), writes a
+    /// PNG of the whole window as JUCE paints it, and quits: return value 0 when written,
+    /// 1 when the window never appeared within 30 s or the file could not be written.
+    class Screenshot : private juce::Timer
+    {
+    public:
+        Screenshot(StandaloneApp& a, juce::File f) : app(a), file(std::move(f)) { startTimer(100); }
+
+    private:
+        void timerCallback() override
+        {
+            ticks += 1;
+            auto* w = app.window.get();
+            const bool shown = w != nullptr && w->isShowing() && w->getPeer() != nullptr &&
+                               w->getContentComponent() != nullptr;
+            readyTicks = shown ? readyTicks + 1 : 0;
+            if (readyTicks < 10 && ticks < 300)
+                return;
+            stopTimer();
+            bool written = false;
+            if (readyTicks >= 10)
+            {
+                const auto image = w->createComponentSnapshot(w->getLocalBounds(), true, 1.0f);
+                file.deleteFile();
+                juce::FileOutputStream out(file);
+                written = out.openedOk() && juce::PNGImageFormat().writeImageToStream(image, out);
+                out.flush();
+                written = written && out.getStatus().wasOk();
+            }
+            std::fprintf(stderr, "Kerf: screenshot %s %s (%dx%d window)\n",
+                         written ? "written to" : "FAILED for", file.getFullPathName().toRawUTF8(),
+                         w != nullptr ? w->getWidth() : 0, w != nullptr ? w->getHeight() : 0);
+            app.setApplicationReturnValue(written ? 0 : 1);
+            app.systemRequestedQuit(); // saves the state and quits, as closing the window does
+        }
+
+        StandaloneApp& app;
+        juce::File file;
+        int ticks = 0, readyTicks = 0;
+    };
+
     juce::ApplicationProperties appProperties;
     std::unique_ptr<StandaloneWindow> window;
+    std::unique_ptr<Screenshot> screenshot;
 };
 
 } // namespace kerf
