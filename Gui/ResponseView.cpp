@@ -514,6 +514,8 @@ void ResponseView::paint(juce::Graphics& g)
     {
         juce::Graphics::ScopedSaveState save(g);
         g.reduceClipRegion(plot);
+        if (paintUnderCurves)
+            paintUnderCurves(g);
         for (const auto& s : stageCurves)
             paintColumns(g, s.columns, s.colour.withAlpha(0.85f), 1.0f);
         paintColumns(g, total, curveColour(), 2.0f);

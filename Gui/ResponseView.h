@@ -6,6 +6,7 @@
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
+#include <functional>
 #include <vector>
 
 namespace kerf
@@ -48,6 +49,9 @@ public:
 
     void paint(juce::Graphics& g) override;
     void resized() override;
+    /// Painted inside the plot (clipped to it) after the grid and under the curves: the live
+    /// analyzer's spectra (AnalyzerView::attachTo sets it).
+    std::function<void(juce::Graphics&)> paintUnderCurves;
 
     // ---- Geometry (public so that tests check where the curve is drawn) -----------------
     /// The plot rectangle in this component's coordinates (axes labels lie outside it).
