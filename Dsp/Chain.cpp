@@ -416,6 +416,7 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         g.target = target;
         g.start = clock;
         g.len = len;
+        g.invLen = 1.0 / static_cast<double>(len);
         g.step = glideKnotSamples(len);
         g.knotEnd = clock; // the first segment starts at this update
         g.on = true;
@@ -547,9 +548,8 @@ void ChainProcessor::update() noexcept
                 rampOrigin[u] = clock;
                 if (e < end)
                 {
-                    const double t = static_cast<double>(e - g.start) / static_cast<double>(g.len);
-                    knots[numKnots++] = {idx, transitionSlope(t) / static_cast<double>(g.len),
-                                         length};
+                    const double t = static_cast<double>(e - g.start) * g.invLen;
+                    knots[numKnots++] = {idx, transitionSlope(t) * g.invLen, length};
                 }
                 else
                 {
@@ -904,35 +904,53 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
     const auto* list = static_cast<const StretchSection*>(sectionList);
     const int pairs = (count + 1) / 2;
     auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
-    for (int j = 0; j < 2 * pairs; ++j)
+    // Past the stretch's end, an identity section: y = v0 exactly.
+    alignas(32) static constexpr double identity[32] = {0.0, 0.0, 0.0, 1.0};
+    alignas(16) static constexpr double rest[4] = {0.0, 0.0, 0.0, 0.0};
+    for (int p = 0; p < pairs; ++p)
     {
-        GlidePair& g = w[j / 2];
-        const int k = j & 1;
-        for (int m = 0; m < 6; ++m)
-        {
-            const int at = (m / 2) * 4 + (m % 2) * 2 + k;
-            for (int o = 0; o < 4; ++o)
-                // Past the stretch's end, an identity section: y = v0 exactly.
-                g.q[o][at] = j < count ? list[j].coeffs[8 * o + m] : (o == 0 && m == 3 ? 1.0 : 0.0);
-        }
-        g.at[k] = g.at[2 + k] = (j < count ? list[j].n0 : 0.0) - static_cast<double>(j);
-        const double* st = j < count ? list[j].state : nullptr;
-        g.s1[k] = st != nullptr ? st[0] : 0.0;
-        g.s1[2 + k] = st != nullptr ? st[1] : 0.0;
-        g.s2[k] = st != nullptr ? st[2] : 0.0;
-        g.s2[2 + k] = st != nullptr ? st[3] : 0.0;
+        GlidePair& g = w[p];
+        const int j = 2 * p;
+        const bool second = j + 1 < count;
+        const double* a = list[j].coeffs;
+        const double* b = second ? list[j + 1].coeffs : identity;
+        // Group G of power o: {c_2G of j, of j + 1, c_2G+1 of j, of j + 1}.
+        for (int o = 0; o < 4; ++o)
+            for (int grp = 0; grp < 3; ++grp)
+            {
+                const __m128d x = _mm_load_pd(a + 8 * o + 2 * grp);
+                const __m128d y = _mm_load_pd(b + 8 * o + 2 * grp);
+                _mm_store_pd(g.q[o] + 4 * grp, _mm_unpacklo_pd(x, y));
+                _mm_store_pd(g.q[o] + 4 * grp + 2, _mm_unpackhi_pd(x, y));
+            }
+        g.at[0] = g.at[2] = list[j].n0 - static_cast<double>(j);
+        g.at[1] = g.at[3] = (second ? list[j + 1].n0 : 0.0) - static_cast<double>(j + 1);
+        // Memories: ic1 = {left, right} of each section -> {left j, left j+1, right j, ...}.
+        const double* sa = list[j].state;
+        const double* sb = second ? list[j + 1].state : rest;
+        const __m128d a1 = _mm_load_pd(sa), a2 = _mm_load_pd(sa + 2);
+        const __m128d b1 = _mm_load_pd(sb), b2 = _mm_load_pd(sb + 2);
+        _mm_store_pd(g.s1, _mm_unpacklo_pd(a1, b1));
+        _mm_store_pd(g.s1 + 2, _mm_unpackhi_pd(a1, b1));
+        _mm_store_pd(g.s2, _mm_unpacklo_pd(a2, b2));
+        _mm_store_pd(g.s2 + 2, _mm_unpackhi_pd(a2, b2));
     }
     alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
     pairCubicKernelFma(w, pairs, l, r, len, cl, cr);
-    for (int j = 0; j < count; ++j)
+    for (int p = 0; p < pairs; ++p)
     {
-        const GlidePair& g = w[j / 2];
-        const int k = j & 1;
-        double* st = list[j].state;
-        st[0] = g.s1[k];
-        st[1] = g.s1[2 + k];
-        st[2] = g.s2[k];
-        st[3] = g.s2[2 + k];
+        const GlidePair& g = w[p];
+        const __m128d s1lo = _mm_load_pd(g.s1), s1hi = _mm_load_pd(g.s1 + 2);
+        const __m128d s2lo = _mm_load_pd(g.s2), s2hi = _mm_load_pd(g.s2 + 2);
+        double* sa = list[2 * p].state;
+        _mm_store_pd(sa, _mm_unpacklo_pd(s1lo, s1hi));
+        _mm_store_pd(sa + 2, _mm_unpacklo_pd(s2lo, s2hi));
+        if (2 * p + 1 < count)
+        {
+            double* sb = list[2 * p + 1].state;
+            _mm_store_pd(sb, _mm_unpackhi_pd(s1lo, s1hi));
+            _mm_store_pd(sb + 2, _mm_unpackhi_pd(s2lo, s2hi));
+        }
     }
 }
 #endif

@@ -212,6 +212,7 @@ private:
         bool on = false;
         long long start = 0;   // clock where the glide began (an update point)
         int len = 0;           // samples
+        double invLen = 0.0;   // 1 / len
         int step = 0;          // knot interval (glideKnotSamples(len))
         long long knotEnd = 0; // clock of the running segment's end (the next knot)
         GlidePath path;
@@ -220,7 +221,7 @@ private:
         /// Where along the path the section is at clock c (smoothstep of the time fraction).
         double sAt(long long c) const noexcept
         {
-            return transitionCurve(static_cast<double>(c - start) / static_cast<double>(len));
+            return transitionCurve(static_cast<double>(c - start) * invLen);
         }
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
