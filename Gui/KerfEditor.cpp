@@ -7,7 +7,7 @@ namespace kerf
 
 KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcessor(p), controls(p)
 {
-    addAndMakeVisible(response);
+    addAndMakeVisible(display);
     addAndMakeVisible(controls);
     protectionLabel.setText("ceiling acting", juce::dontSendNotification);
     protectionLabel.setColour(juce::Label::textColourId, juce::Colour(0xfff2a65a));
@@ -84,7 +84,7 @@ void KerfEditor::resized()
     echoStatus.setBounds(echoRow.reduced(6, 0));
     auto top = area.removeFromTop(area.getHeight() * 6 / 11);
     protectionLabel.setBounds(top.getRight() - 120, top.getY() + 4, 116, 18);
-    response.setBounds(top.reduced(4));
+    display.setBounds(top.reduced(4));
     controls.setBounds(area);
 }
 
@@ -94,7 +94,10 @@ void KerfEditor::refreshResponse()
     // The chain's H(z) and the output gain: what the plugin does to a signal below the
     // protection ceiling. Only a change re-evaluates (ResponseView::setChain compares).
     const auto* gain = kerfProcessor.state().getRawParameterValue(ids::outputGain);
-    response.setChain(kerfProcessor.exportChain(), rate, gain != nullptr ? gain->load() : 0.0);
+    const auto chain = kerfProcessor.exportChain();
+    const double gainDb = gain != nullptr ? gain->load() : 0.0;
+    response.setChain(chain, rate, gainDb);
+    display.setChain(chain, rate, gainDb);
 }
 
 void KerfEditor::updateEchoPanel()

@@ -1,5 +1,6 @@
 #pragma once
 // The first editor: the chain's response curve over a plain list of every parameter.
+#include "DisplayDeck.h"
 #include "ResponseView.h"
 
 #include <juce_audio_processors/juce_audio_processors.h>
@@ -24,12 +25,15 @@ public:
     /// second); the view evaluates H(z) again only when the chain or output gain changed.
     void refreshResponse();
     ResponseView& responseView() noexcept { return response; }
+    /// The display area: response, z-plane or impulse view.
+    DisplayDeck& displayDeck() noexcept { return display; }
 
 private:
     void timerCallback() override;
 
     KerfProcessor& kerfProcessor;
     ResponseView response;
+    DisplayDeck display{response};
     juce::GenericAudioProcessorEditor controls;
     juce::Label protectionLabel;
     int protectionHoldFrames = 0;
