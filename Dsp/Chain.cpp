@@ -553,8 +553,8 @@ void ChainProcessor::update() noexcept
                 }
                 else
                 {
-                    double endValues[6];
-                    const double still[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
+                    alignas(16) double endValues[8] = {};
+                    alignas(16) const double still[8] = {};
                     foldCoeffs(g.target, endValues);
                     startCubic(idx, endValues, still, length);
                 }
@@ -582,9 +582,13 @@ void ChainProcessor::update() noexcept
         for (int i = 0; i < n; ++i)
         {
             const Knot& kn = knots[static_cast<std::size_t>(b + i)];
-            for (double& v : endSlope[i])
-                v *= kn.dsdn;
-            startCubic(kn.slot, end[i], endSlope[i], kn.length);
+            alignas(16) double e[8] = {}, es[8] = {};
+            for (int m = 0; m < 6; ++m)
+            {
+                e[m] = end[i][m];
+                es[m] = endSlope[i][m] * kn.dsdn;
+            }
+            startCubic(kn.slot, e, es, kn.length);
         }
     }
     // Stages the chain no longer has are dropped once they have faded out.
@@ -597,7 +601,7 @@ void ChainProcessor::update() noexcept
     }
 }
 
-void ChainProcessor::startCubic(int idx, const double end[6], const double endSlope[6],
+void ChainProcessor::startCubic(int idx, const double end[8], const double endSlope[8],
                                 int length) noexcept
 {
     // The Hermite cubic from here (exact values, the slope the last knot found) to the
@@ -608,14 +612,26 @@ void ChainProcessor::startCubic(int idx, const double end[6], const double endSl
     const auto u = static_cast<std::size_t>(idx);
     Glide& g = glides[u];
     RampCubic& q = rampCubic[u];
-    for (int m = 0; m < 6; ++m)
+    // All eight lanes (the last two are zeros throughout), in local copies so that the
+    // loops vectorise.
+    alignas(32) double b[8], s0[8], c2[8], c3[8];
+    for (int m = 0; m < 8; ++m)
     {
-        const double b = rampKnot[u].v[m], s0 = g.slope[m];
-        const double rise = end[m] - b - s0 * K, turn = endSlope[m] - s0;
-        q.c[0].v[m] = b;
-        q.c[1].v[m] = s0;
-        q.c[2].v[m] = (3.0 * rise - turn * K) * inv2;
-        q.c[3].v[m] = (turn * K - 2.0 * rise) * inv3;
+        b[m] = rampKnot[u].v[m];
+        s0[m] = g.slope[m];
+    }
+    for (int m = 0; m < 8; ++m)
+    {
+        const double rise = end[m] - b[m] - s0[m] * K, turn = endSlope[m] - s0[m];
+        c2[m] = (3.0 * rise - turn * K) * inv2;
+        c3[m] = (turn * K - 2.0 * rise) * inv3;
+    }
+    for (int m = 0; m < 8; ++m)
+    {
+        q.c[0].v[m] = b[m];
+        q.c[1].v[m] = s0[m];
+        q.c[2].v[m] = c2[m];
+        q.c[3].v[m] = c3[m];
         rampKnot[u].v[m] = end[m];
         g.slope[m] = endSlope[m];
     }

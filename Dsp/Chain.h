@@ -216,7 +216,7 @@ private:
         int step = 0;          // knot interval (glideKnotSamples(len))
         long long knotEnd = 0; // clock of the running segment's end (the next knot)
         GlidePath path;
-        double slope[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0}; // d(folded values)/dn at knotEnd
+        double slope[8] = {}; // d(folded values)/dn at knotEnd (six, then two zeros)
         SvfCoeffs target;
         /// Where along the path the section is at clock c (smoothstep of the time fraction).
         double sAt(long long c) const noexcept
@@ -261,7 +261,8 @@ private:
     void startGlide(int stage, const StageSpec& spec) noexcept;
     void freezeGlides(const Voice& v) noexcept;
     void update() noexcept; // at every update point while something moves
-    void startCubic(int idx, const double end[6], const double endSlope[6], int length) noexcept;
+    /// Starts a segment's cubic: end values and slopes, six each then two zeros.
+    void startCubic(int idx, const double end[8], const double endSlope[8], int length) noexcept;
     /// A gliding section's folded values at the current clock, from its running cubic.
     void foldedNow(int idx, double out[6]) const noexcept;
     void runFading(int stage, int numChannels, int len) noexcept;

@@ -159,24 +159,27 @@ bool fitMagnitudeSquared(const Target& target, double omega0, double omegaMax,
     double x[5] = {tDc, 0.0, 0.0, 0.0, 0.0};
     for (int pass = 0; pass < kPasses; ++pass)
     {
-        double kkt[5][5] = {}, k[5] = {};
+        // The full 4 x 4 block (symmetric; rows of four vectorise).
+        double normal[4][4] = {}, k[5] = {};
         for (int i = 0; i < kPoints; ++i)
         {
             const double w2 = weight[i] * weight[i];
             for (int r = 0; r < 4; ++r)
             {
                 const double wr = w2 * rows[i][r];
-                for (int c = r; c < 4; ++c)
-                    kkt[r][c] += wr * rows[i][c];
+                for (int c = 0; c < 4; ++c)
+                    normal[r][c] += wr * rows[i][c];
                 k[r] += wr * rhs[i];
             }
         }
+        double kkt[5][5];
         for (int r = 0; r < 4; ++r)
         {
-            for (int c = 0; c < r; ++c)
-                kkt[r][c] = kkt[c][r];
+            for (int c = 0; c < 4; ++c)
+                kkt[r][c] = normal[r][c];
             kkt[r][4] = kkt[4][r] = cons[r];
         }
+        kkt[4][4] = 0.0;
         k[4] = consRhs;
         if (!solveSmall(kkt, k))
             return false;
