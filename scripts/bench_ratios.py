@@ -21,6 +21,10 @@ PAIRS = [
      "bilinear designs, gliding every 2 blocks / static (bar <= 1.5)"),
     ("BM_Static24Bilinear", "BM_Gliding24BilinearEvery1",
      "bilinear designs, new targets every block / static (bar <= 1.5)"),
+    ("BM_Static24Accurate", "BM_Gliding24AccurateEvery1Glide20",
+     "the same at the default 20 ms glides (knots every 32 samples) / static (bar <= 1.5)"),
+    ("BM_Static24Bilinear", "BM_Gliding24BilinearEvery1Glide20",
+     "bilinear designs at the default 20 ms glides / static (bar <= 1.5)"),
     # Denormals: the slowest second of 60 s of silence after loud input / of loud input.
     ("BM_RingingLoud/manual_time", "BM_RingingSilence60s/manual_time",
      "feedback comb at its highest gain, slowest second of 60 s silence / loud (bar <= 1.2)"),

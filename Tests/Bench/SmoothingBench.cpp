@@ -48,13 +48,14 @@ void fillNoise(std::vector<double>& l, std::vector<double>& r)
 /// everyBlocks = 0: static; otherwise new targets for every parameter every that many
 /// blocks (1: the host automates everything every block; 2: a new target about once per
 /// glide time, every section always gliding).
-void run(benchmark::State& state, DesignMode mode, int everyBlocks)
+void run(benchmark::State& state, DesignMode mode, int everyBlocks, double glideMs = 25.0)
 {
     ChainProcessor p;
     p.prepare(kRate, kBlock, 2);
     // 25 ms (1200 samples) is longer than two blocks: a glide never ends before the next
-    // target arrives, so every section glides all the time.
-    p.setGlideMs(25.0);
+    // target arrives, so every section glides all the time. Glides of 20 ms (the default)
+    // are timed with new targets every block, which they never outlast.
+    p.setGlideMs(glideMs);
     p.setChain(chain(mode, 0));
     std::vector<double> l(kBlock), r(kBlock);
     fillNoise(l, r);
@@ -106,12 +107,23 @@ void BM_Gliding24BilinearEvery1(benchmark::State& s)
 {
     run(s, DesignMode::bilinear, 1);
 }
+/// The default glide time (20 ms): knots every 32 samples (glideKnotSamples), not 64.
+void BM_Gliding24AccurateEvery1Glide20(benchmark::State& s)
+{
+    run(s, DesignMode::accurate, 1, 20.0);
+}
+void BM_Gliding24BilinearEvery1Glide20(benchmark::State& s)
+{
+    run(s, DesignMode::bilinear, 1, 20.0);
+}
 BENCHMARK(BM_Static24Accurate);
 BENCHMARK(BM_Gliding24AccurateEvery2);
 BENCHMARK(BM_Gliding24AccurateEvery1);
 BENCHMARK(BM_Static24Bilinear);
 BENCHMARK(BM_Gliding24BilinearEvery2);
 BENCHMARK(BM_Gliding24BilinearEvery1);
+BENCHMARK(BM_Gliding24AccurateEvery1Glide20);
+BENCHMARK(BM_Gliding24BilinearEvery1Glide20);
 } // namespace
 
 BENCHMARK_MAIN();
