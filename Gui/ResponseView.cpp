@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <limits>
 
 namespace kerf
 {
@@ -125,6 +126,18 @@ ResponseView::ResponseView()
     pathBox.onChange = [this]
     { setChannelView(static_cast<dsp::ChannelView>(pathBox.getSelectedId() - 1)); };
     addAndMakeVisible(pathBox);
+    worker = std::thread([this] { workerLoop(); });
+}
+
+ResponseView::~ResponseView()
+{
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        quitting = true;
+    }
+    workReady.notify_all();
+    worker.join();
+    cancelPendingUpdate();
 }
 
 void ResponseView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz,
@@ -234,51 +247,51 @@ float ResponseView::yForDb(double db) const noexcept
     return static_cast<float>(plot.getY() + t * plot.getHeight());
 }
 
-void ResponseView::buildGrid()
+namespace
 {
-    grid.clear();
-    columnStart.clear();
-    leadIn.clear();
-    const int width = plot.getWidth();
+/// The dense frequency grid: column c spans freqs[columnStart[c]] .. freqs[columnStart[c + 1]]
+/// (neighbours share their edge); leadIn lies below the axis so phase unwraps from 1 Hz.
+struct Grid
+{
+    std::vector<double> freqs, leadIn;
+    std::vector<int> columnStart;
+};
+
+Grid makeGrid(const dsp::ChainSpec& chain, double fs, int width)
+{
+    Grid grid;
     if (width < 2)
-        return;
-    const double fs = sampleRate;
+        return grid;
+    const double low = ResponseView::kLowHz, high = std::min(0.5 * fs, 24000.0);
+    auto freqAt = [&](double column) { return low * std::pow(high / low, column / width); };
     // The delays that make fine structure: sampled at 16 points per period of the longest,
     // plus every half period of each (a single comb's or reflection's exact peaks and notches).
     double longestDelay = 0.0;
     std::vector<double> halfPeriodsHz;
+    auto addDelay = [&](double samples)
+    {
+        if (samples > 0.0)
+        {
+            longestDelay = std::max(longestDelay, samples);
+            halfPeriodsHz.push_back(0.5 * fs / samples);
+        }
+    };
     for (int i = 0; i < chain.numStages; ++i)
     {
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
         if (!s.enabled)
             continue;
         if (s.type == dsp::StageType::comb)
-        {
-            const double d = dsp::combLineDelaySamples(dsp::clampCombSettings(s.comb, fs), fs);
-            if (d > 0.0)
-            {
-                longestDelay = std::max(longestDelay, d);
-                halfPeriodsHz.push_back(0.5 * fs / d);
-            }
-        }
+            addDelay(dsp::combLineDelaySamples(dsp::clampCombSettings(s.comb, fs), fs));
         else if (s.type == dsp::StageType::echoCancel)
             for (int k = 0; k < s.echo.numReflections; ++k)
-            {
-                const double d =
-                    s.echo.reflections[static_cast<std::size_t>(k)].delayMs * fs / 1000.0;
-                if (d > 0.0)
-                {
-                    longestDelay = std::max(longestDelay, d);
-                    halfPeriodsHz.push_back(0.5 * fs / d);
-                }
-            }
+                addDelay(s.echo.reflections[static_cast<std::size_t>(k)].delayMs * fs / 1000.0);
     }
     const double step = longestDelay > 0.0 ? fs / longestDelay / kPointsPerFinePeriod : 1.0e300;
     std::vector<double> local;
     for (int c = 0; c < width; ++c)
     {
-        const double fa = frequencyForX(plot.getX() + c);
-        const double fb = frequencyForX(plot.getX() + c + 1);
+        const double fa = freqAt(c), fb = freqAt(c + 1);
         const int n = static_cast<int>(std::clamp(
             std::ceil((fb - fa) / step), double(kMinPointsPerColumn), double(kMaxPointsPerColumn)));
         local.clear();
@@ -289,46 +302,48 @@ void ResponseView::buildGrid()
                  k * hp < fb && static_cast<int>(local.size()) < 2 * kMaxPointsPerColumn; k += 1.0)
                 local.push_back(k * hp);
         std::sort(local.begin(), local.end());
-        columnStart.push_back(static_cast<int>(grid.size()));
-        grid.insert(grid.end(), local.begin(), local.end());
+        grid.columnStart.push_back(static_cast<int>(grid.freqs.size()));
+        grid.freqs.insert(grid.freqs.end(), local.begin(), local.end());
     }
-    grid.push_back(frequencyForX(plot.getRight()));
-    columnStart.push_back(static_cast<int>(grid.size()) - 1);
-    // Below the axis, so that the phase is unwrapped from near 0 Hz and not from 20 Hz.
+    grid.freqs.push_back(freqAt(width));
+    grid.columnStart.push_back(static_cast<int>(grid.freqs.size()) - 1);
     const double leadStep = std::min(0.5, step);
-    for (double f = 1.0; f < kLowHz; f += leadStep)
-        leadIn.push_back(f);
+    for (double f = 1.0; f < low; f += leadStep)
+        grid.leadIn.push_back(f);
+    return grid;
 }
 
-std::vector<ResponseView::Column> ResponseView::evaluateColumns(const dsp::ChainSpec& c,
-                                                                bool withGain) const
+/// Each column's lowest and highest value of one chain along one path.
+std::vector<ResponseView::Column> evaluateColumns(const Grid& grid, const dsp::ChainSpec& c,
+                                                  double fs, ResponseView::Mode mode,
+                                                  dsp::ChannelView view, double gainDb)
 {
-    const auto n = grid.size();
+    const auto n = grid.freqs.size();
     std::vector<double> values(n);
-    if (currentMode == Mode::magnitude)
+    if (mode == ResponseView::Mode::magnitude)
     {
-        dsp::chainMagnitudeDb(c, sampleRate, grid.data(), values.data(), static_cast<int>(n),
-                              pathView);
+        dsp::chainMagnitudeDb(c, fs, grid.freqs.data(), values.data(), static_cast<int>(n), view);
         for (auto& v : values)
-            v = std::max(v + (withGain ? gainDb : 0.0), kFloorDb); // NaN and -inf to the floor
+            v = std::max(v + gainDb, kFloorDb); // NaN and -inf to the floor
     }
     else
     {
-        std::vector<double> freqs(leadIn);
-        freqs.insert(freqs.end(), grid.begin(), grid.end());
-        const auto points = dsp::chainResponse(c, sampleRate, freqs, pathView);
+        std::vector<double> freqs(grid.leadIn);
+        freqs.insert(freqs.end(), grid.freqs.begin(), grid.freqs.end());
+        const auto points = dsp::chainResponse(c, fs, freqs, view);
         for (std::size_t i = 0; i < n; ++i)
         {
-            const auto& p = points[leadIn.size() + i];
+            const auto& p = points[grid.leadIn.size() + i];
             values[i] =
-                currentMode == Mode::phase ? p.phaseDeg : p.groupDelaySamples * 1000.0 / sampleRate;
+                mode == ResponseView::Mode::phase ? p.phaseDeg : p.groupDelaySamples * 1000.0 / fs;
         }
     }
-    std::vector<Column> out(columnStart.empty() ? 0 : columnStart.size() - 1);
+    std::vector<ResponseView::Column> out(grid.columnStart.empty() ? 0
+                                                                   : grid.columnStart.size() - 1);
     for (std::size_t col = 0; col < out.size(); ++col)
     {
         double lo = std::numeric_limits<double>::infinity(), hi = -lo;
-        for (int i = columnStart[col]; i <= columnStart[col + 1]; ++i)
+        for (int i = grid.columnStart[col]; i <= grid.columnStart[col + 1]; ++i)
         {
             const double v = values[static_cast<std::size_t>(i)];
             if (std::isfinite(v))
@@ -343,36 +358,120 @@ std::vector<ResponseView::Column> ResponseView::evaluateColumns(const dsp::Chain
     }
     return out;
 }
+} // namespace
 
-void ResponseView::evaluate()
+ResponseView::Result ResponseView::compute(const Request& r)
 {
     const auto start = std::chrono::steady_clock::now();
-    buildGrid();
-    total.clear();
-    stageCurves.clear();
-    if (!grid.empty())
+    Result result;
+    result.id = r.id;
+    result.mode = r.mode;
+    result.view = r.view;
+    const Grid grid = makeGrid(r.chain, r.sampleRate, r.width);
+    result.points = static_cast<int>(grid.freqs.size());
+    if (!grid.freqs.empty())
     {
-        total = evaluateColumns(chain, true);
-        if (showStages)
+        result.total = evaluateColumns(grid, r.chain, r.sampleRate, r.mode, r.view, r.gainDb);
+        if (r.stages)
         {
-            const bool product = dsp::viewIsProduct(chain, pathView);
-            for (int i = 0; i < chain.numStages; ++i)
+            const bool product = dsp::viewIsProduct(r.chain, r.view);
+            for (int i = 0; i < r.chain.numStages; ++i)
             {
-                const auto& s = chain.stages[static_cast<std::size_t>(i)];
-                if (!s.enabled || (product && !dsp::stageInView(s.channels, pathView)))
+                const auto& s = r.chain.stages[static_cast<std::size_t>(i)];
+                if (!s.enabled || (product && !dsp::stageInView(s.channels, r.view)))
                     continue;
                 dsp::ChainSpec one;
                 one.push(s);
-                const auto tone = kStageTones[stageCurves.size() % std::size(kStageTones)];
-                stageCurves.push_back({stageLabel(s), tone, evaluateColumns(one, false)});
+                const auto tone = kStageTones[result.stages.size() % std::size(kStageTones)];
+                result.stages.push_back(
+                    {stageLabel(s), tone,
+                     evaluateColumns(grid, one, r.sampleRate, r.mode, r.view, 0.0)});
             }
         }
     }
-    ++evaluations;
-    evaluationMs =
+    result.ms =
         std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count();
+    return result;
+}
+
+void ResponseView::evaluate()
+{
+    Request r;
+    r.chain = chain;
+    r.sampleRate = sampleRate;
+    r.gainDb = gainDb;
+    r.mode = currentMode;
+    r.view = pathView;
+    r.stages = showStages;
+    r.width = plot.getWidth();
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        r.id = ++lastRequestId;
+        pending = std::move(r); // replaces an older request the worker has not started
+    }
+    workReady.notify_one();
+}
+
+void ResponseView::workerLoop()
+{
+    std::unique_lock<std::mutex> lock(workMutex);
+    for (;;)
+    {
+        workReady.wait(lock, [this] { return quitting || pending.has_value(); });
+        if (quitting)
+            return;
+        const Request r = std::move(*pending);
+        pending.reset();
+        lock.unlock();
+        Result result = compute(r);
+        evaluations.fetch_add(1);
+        lock.lock();
+        finished = std::move(result);
+        resultReady.notify_all();
+        triggerAsyncUpdate(); // posts a message; handleAsyncUpdate takes the result
+    }
+}
+
+bool ResponseView::takeResult()
+{
+    std::optional<Result> result;
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        result.swap(finished);
+    }
+    // A result for a mode or path the user has left is dropped: the newer one is on its way.
+    if (!result || result->mode != currentMode || result->view != pathView)
+        return false;
+    shownId = result->id;
+    total = std::move(result->total);
+    stageCurves = std::move(result->stages);
+    points = result->points;
+    evaluationMs = result->ms;
     chooseRange();
     repaint();
+    return true;
+}
+
+void ResponseView::handleAsyncUpdate()
+{
+    takeResult();
+}
+
+bool ResponseView::waitForCurve(int timeoutMs)
+{
+    std::uint64_t wanted = 0;
+    {
+        std::unique_lock<std::mutex> lock(workMutex);
+        wanted = lastRequestId;
+        if (shownId == wanted)
+            return true;
+        const bool done = resultReady.wait_for(lock, std::chrono::milliseconds(timeoutMs),
+                                               [&] { return finished && finished->id == wanted; });
+        if (!done)
+            return false;
+    }
+    cancelPendingUpdate();
+    return takeResult();
 }
 
 void ResponseView::chooseRange()

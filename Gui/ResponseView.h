@@ -6,7 +6,13 @@
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
+#include <atomic>
+#include <condition_variable>
+#include <cstdint>
 #include <functional>
+#include <mutex>
+#include <optional>
+#include <thread>
 #include <vector>
 
 namespace kerf
@@ -17,8 +23,10 @@ namespace kerf
 /// minimum and maximum of H over the column's frequency interval, sampled densely enough
 /// for the chain's longest delay (and at the combs' exact peaks and notches), so fine comb
 /// structure draws as a filled band instead of an aliased line. Evaluation runs on the
-/// message thread, and only when the chain, the sample rate, the view or the size changed.
-class ResponseView : public juce::Component
+/// view's own background thread (never the audio thread, never blocking the message thread),
+/// and only when the chain, the sample rate, the view or the size changed; a change that
+/// arrives while one is evaluated replaces any older waiting one.
+class ResponseView : public juce::Component, private juce::AsyncUpdater
 {
 public:
     /// What the curve shows.
@@ -30,6 +38,7 @@ public:
     };
 
     ResponseView();
+    ~ResponseView() override;
 
     /// Takes the chain to draw; re-evaluates only when something differs from the last call.
     /// outputGainDb (the plugin's output gain) shifts the magnitude curve.
@@ -80,18 +89,24 @@ public:
         double low = 0.0, high = 0.0;
     };
     const std::vector<Column>& columns() const noexcept { return total; }
+    /// Message thread: waits until the curve for the latest change has been evaluated and
+    /// takes it (otherwise it arrives asynchronously). False on timeout. For tests and
+    /// snapshots.
+    bool waitForCurve(int timeoutMs = 20000);
     /// How many times the response has been evaluated since construction.
-    int evaluationCount() const noexcept { return evaluations; }
-    /// Frequencies evaluated in the last evaluation (whole chain, one path).
-    int pointsEvaluated() const noexcept { return static_cast<int>(grid.size()); }
-    /// Milliseconds the last evaluation took (all curves).
+    int evaluationCount() const noexcept { return evaluations.load(); }
+    /// Frequencies evaluated for the curve shown (whole chain, one path).
+    int pointsEvaluated() const noexcept { return points; }
+    /// Milliseconds the evaluation of the curve shown took (all curves, background thread).
     double lastEvaluationMs() const noexcept { return evaluationMs; }
 
 private:
+    /// Asks the background thread for the curves of the current settings.
     void evaluate();
     void layoutControls();
-    void buildGrid();
-    std::vector<Column> evaluateColumns(const dsp::ChainSpec& chain, bool withGain) const;
+    void handleAsyncUpdate() override;
+    bool takeResult();
+    void workerLoop();
     void chooseRange();
     void paintGrid(juce::Graphics& g);
     void paintColumns(juce::Graphics& g, const std::vector<Column>& cols, juce::Colour colour,
@@ -108,10 +123,7 @@ private:
     double rangeLow = -24.0, rangeHigh = 24.0, rangeStep = 6.0;
 
     juce::Rectangle<int> plot;
-    std::vector<double> grid;     // ascending frequencies of the dense grid
-    std::vector<int> columnStart; // column c spans grid[columnStart[c]..columnStart[c + 1]]
-    std::vector<double> leadIn;   // below kLowHz, so phase unwraps from near 0 Hz
-    std::vector<Column> total;    // the whole chain
+    std::vector<Column> total; // the whole chain
     struct StageCurve
     {
         juce::String label;
@@ -119,8 +131,40 @@ private:
         std::vector<Column> columns;
     };
     std::vector<StageCurve> stageCurves;
-    int evaluations = 0;
+    int points = 0;
     double evaluationMs = 0.0;
+    std::atomic<int> evaluations{0};
+
+    // What the background thread evaluates, and what it hands back.
+    struct Request
+    {
+        std::uint64_t id = 0;
+        dsp::ChainSpec chain;
+        double sampleRate = 48000.0, gainDb = 0.0;
+        Mode mode = Mode::magnitude;
+        dsp::ChannelView view = dsp::ChannelView::left;
+        bool stages = false;
+        int width = 0; // plot columns
+    };
+    struct Result
+    {
+        std::uint64_t id = 0;
+        Mode mode = Mode::magnitude;
+        dsp::ChannelView view = dsp::ChannelView::left;
+        std::vector<Column> total;
+        std::vector<StageCurve> stages;
+        int points = 0;
+        double ms = 0.0;
+    };
+    static Result compute(const Request& request);
+    std::mutex workMutex;
+    std::condition_variable workReady, resultReady;
+    std::optional<Request> pending; // the newest request not yet taken by the worker
+    std::optional<Result> finished; // the newest result not yet taken by the view
+    std::uint64_t lastRequestId = 0;
+    std::uint64_t shownId = 0; // the request whose curves are shown (message thread)
+    bool quitting = false;
+    std::thread worker; // started in the constructor's body, joined first in the destructor
 
     juce::TextButton magnitudeButton{"Magnitude"}, phaseButton{"Phase"}, delayButton{"Group delay"},
         stagesButton{"Stages"}, rangeButton{"+-24 dB"};

@@ -247,6 +247,7 @@ TEST_CASE("editor: the drawn curve lies within 2 px of the computed response", "
         REQUIRE(editor != nullptr);
         auto& view = kerfEditor(*editor).responseView();
         kerfEditor(*editor).refreshResponse();
+        REQUIRE(view.waitForCurve());
         REQUIRE(view.highHz() == 24000.0);
 
         auto magnitude = [&tc](double f) { return magnitudeDb(tc.h(2.0 * kPi * f / kFs)); };
@@ -254,6 +255,7 @@ TEST_CASE("editor: the drawn curve lies within 2 px of the computed response", "
         for (auto mode : {ResponseView::Mode::magnitude, ResponseView::Mode::groupDelay})
         {
             view.setMode(mode);
+            REQUIRE(view.waitForCurve());
             const bool mag = mode == ResponseView::Mode::magnitude;
             const auto image =
                 editor->createComponentSnapshot(editor->getLocalBounds(), true, 1.0f);
@@ -295,6 +297,7 @@ TEST_CASE("editor: comb fine structure is drawn as a band of the column's extrem
     std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
     auto& view = kerfEditor(*editor).responseView();
     kerfEditor(*editor).refreshResponse();
+    REQUIRE(view.waitForCurve());
     const int column =
         static_cast<int>(std::floor(view.xForFrequency(10000.0))) - view.plotArea().getX();
     REQUIRE(column >= 0);
@@ -318,6 +321,7 @@ TEST_CASE("editor: the response is evaluated again only when something changed",
     std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
     auto& view = kerfEditor(*editor).responseView();
     kerfEditor(*editor).refreshResponse();
+    REQUIRE(view.waitForCurve());
     const int before = view.evaluationCount();
     const auto column =
         static_cast<std::size_t>(std::floor(view.xForFrequency(1000.0)) - view.plotArea().getX());
@@ -331,13 +335,16 @@ TEST_CASE("editor: the response is evaluated again only when something changed",
     for (int i = 0; i < 50 && view.evaluationCount() == before; ++i)
         juce::MessageManager::getInstance()->runDispatchLoopUntil(10);
     CHECK(view.evaluationCount() == before + 1);
+    REQUIRE(view.waitForCurve());
     // The output gain moves the whole magnitude curve: the 1 kHz column drops by 3 dB.
     CHECK(view.columns().at(column).high == Approx(atUnity.high - 3.0).margin(1e-9));
     CHECK(view.columns().at(column).low == Approx(atUnity.low - 3.0).margin(1e-9));
     view.setShowStages(true);
+    REQUIRE(view.waitForCurve());
     const auto image = editor->createComponentSnapshot(editor->getLocalBounds(), true, 1.0f);
     writePng(image, "editor-everything-stages.png");
     view.setMode(ResponseView::Mode::phase);
+    REQUIRE(view.waitForCurve());
     writePng(editor->createComponentSnapshot(editor->getLocalBounds(), true, 1.0f),
              "editor-everything-phase.png");
     std::printf("editor snapshot: five-stage chain with stage curves (phase): %d points, %.1f ms\n",
