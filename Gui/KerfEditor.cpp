@@ -46,6 +46,8 @@ KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcesso
     for (auto* c : std::initializer_list<juce::Component*>{&undoButton, &redoButton, &compareButton,
                                                            &flatButton})
         addAndMakeVisible(c);
+    addAndMakeVisible(analyzer);
+    analyzer.attachTo(response);
     updateSessionRow();
     setResizable(true, true);
     setResizeLimits(480, 400, 2400, 1600);
@@ -75,6 +77,8 @@ void KerfEditor::resized()
         sessionRow.removeFromLeft(6);
     }
     flatButton.setBounds(sessionRow.removeFromRight(100));
+    sessionRow.removeFromRight(6);
+    analyzer.setBounds(sessionRow.removeFromRight(84));
     auto echoRow = area.removeFromTop(34).reduced(4);
     listenButton.setBounds(echoRow.removeFromLeft(160));
     echoRow.removeFromLeft(6);

@@ -1,5 +1,6 @@
 #pragma once
 // The first editor: the chain's response curve over a plain list of every parameter.
+#include "AnalyzerView.h"
 #include "DisplayDeck.h"
 #include "ResponseView.h"
 
@@ -51,6 +52,13 @@ private:
     juce::TextButton redoButton{"Redo"};
     juce::TextButton compareButton{"A/B: A"};
     juce::TextButton flatButton{"All flat"};
+
+public:
+    /// The live analyzer's switch; it draws into the response view (off by default).
+    AnalyzerView& analyzerView() noexcept { return analyzer; }
+
+private:
+    AnalyzerView analyzer{kerfProcessor};
 };
 
 } // namespace kerf

@@ -47,6 +47,9 @@ void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
     dryCopy.setSize(juce::jmax(2, getTotalNumInputChannels(), getTotalNumOutputChannels()),
                     juce::jmax(1, samplesPerBlock));
     wetAmount = refs.bypass->load() > 0.5f ? 0.0 : 1.0;
+    analyzerIn.assign(static_cast<std::size_t>(dryCopy.getNumSamples()), 0.0f);
+    analyzerOut.assign(static_cast<std::size_t>(dryCopy.getNumSamples()), 0.0f);
+    analyzerRate.store(sampleRate, std::memory_order_relaxed);
     setLatencySamples(0);
 }
 
@@ -88,6 +91,12 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
 
     // The echo estimate listens to the input as it arrives, before any processing.
     capture.push(buffer.getArrayOfReadPointers(), getTotalNumInputChannels(), numSamples);
+    // The live analyzer (when an editor has it on) sees the same input and, at the end, the
+    // output; pieces never exceed the prepared length (processAny splits longer blocks).
+    const bool feedAnalyzer = analyzerFeed.load(std::memory_order_relaxed);
+    if (feedAnalyzer)
+        monoSum(buffer, juce::jmin(numChannels, getTotalNumInputChannels()), analyzerIn.data(),
+                juce::jmin(numSamples, static_cast<int>(analyzerIn.size())));
 
     // Bypass: the chain keeps running (its memories stay current, so coming back is smooth)
     // and the output crossfades between the processed and the untouched input.
@@ -140,6 +149,31 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
 
     if (crossfade)
         applyBypassCrossfade(buffer, dryChannels, wetTarget);
+
+    if (feedAnalyzer)
+    {
+        const int fed = juce::jmin(numSamples, static_cast<int>(analyzerOut.size()));
+        monoSum(buffer, juce::jmin(numChannels, getTotalNumOutputChannels()), analyzerOut.data(),
+                fed);
+        analyzerQueue.push(analyzerIn.data(), analyzerOut.data(), fed);
+        if (fed < numSamples) // only before prepareToPlay: nothing to copy into
+            analyzerQueue.countDropped(numSamples - fed);
+    }
+}
+
+template <typename Sample>
+void KerfProcessor::monoSum(const juce::AudioBuffer<Sample>& buffer, int channels, float* out,
+                            int numSamples) noexcept
+{
+    // The mean of the channels: a full-scale sine on every channel stays full scale.
+    const double scale = channels > 0 ? 1.0 / channels : 0.0;
+    for (int i = 0; i < numSamples; ++i)
+    {
+        double sum = 0.0;
+        for (int ch = 0; ch < channels; ++ch)
+            sum += static_cast<double>(buffer.getReadPointer(ch)[i]);
+        out[i] = static_cast<float>(sum * scale);
+    }
 }
 
 template <typename Sample>

@@ -1,5 +1,6 @@
 #pragma once
 // The Kerf AudioProcessor: adapts JUCE buffers and parameters to the Dsp core.
+#include "Analysis/AnalyzerFifo.h"
 #include "Chain.h"
 #include "EchoCapture.h"
 #include "EditHistory.h"
@@ -126,6 +127,20 @@ public:
     /// Sets the echo parameters from an accepted estimate (message thread; one undo step).
     void applyEchoEstimate(const dsp::EchoEstimate& estimate);
 
+    // ---- The live analyzer's feed (LiveAnalyzer, Gui/AnalyzerView) -------------------------
+    /// Switches the audio thread's copy of the input's and the output's mono sums into
+    /// analyzerFifo() on or off (any thread). Off by default; while off, processBlock does one
+    /// relaxed atomic load for it and nothing else.
+    void setAnalyzerFeed(bool on) noexcept { analyzerFeed.store(on, std::memory_order_relaxed); }
+    bool analyzerFeedOn() const noexcept { return analyzerFeed.load(std::memory_order_relaxed); }
+    /// The feed (one consumer thread pops; full means dropped and counted, never waiting).
+    dsp::AnalyzerFifo& analyzerFifo() noexcept { return analyzerQueue; }
+    /// The sample rate of what the feed carries (0 before prepareToPlay; any thread).
+    double analyzerSampleRate() const noexcept
+    {
+        return analyzerRate.load(std::memory_order_relaxed);
+    }
+
     /// Why the last state restore fell back to defaults ("" when it did not); the reason is
     /// also written to juce::Logger (the host's log, or stderr).
     juce::String lastStateProblem() const { return stateProblem; }
@@ -137,6 +152,9 @@ private:
     void applyBypassCrossfade(juce::AudioBuffer<Sample>& buffer, int dryChannels,
                               double wetTarget) noexcept;
     void resetToDefaults();
+    template <typename Sample>
+    static void monoSum(const juce::AudioBuffer<Sample>& buffer, int channels, float* out,
+                        int numSamples) noexcept;
 
     juce::AudioProcessorValueTreeState parameters;
     ParameterRefs refs;
@@ -148,6 +166,10 @@ private:
     double lastOutputGain = 1.0;
     juce::AudioBuffer<double> dryCopy; // the input, for the bypass crossfade
     double wetAmount = 1.0;            // 1 = processed, 0 = bypassed (crossfade position)
+    std::atomic<bool> analyzerFeed{false};
+    dsp::AnalyzerFifo analyzerQueue{1 << 15};   // 0.68 s at 48 kHz; allocated once, here
+    std::vector<float> analyzerIn, analyzerOut; // a piece's mono sums, sized in prepareToPlay
+    std::atomic<double> analyzerRate{0.0};
     int currentProgram = 0;
     juce::String stateProblem;
     UserPresetFolder presetFolder;

@@ -1,5 +1,7 @@
 #include "EchoEstimator.h"
 
+#include "FftwPlanner.h"
+
 #include <Eigen/Dense>
 #include <fftw3.h>
 
@@ -54,12 +56,6 @@ struct FftPlans
     fftw_plan r2c = nullptr;
     fftw_plan c2r = nullptr;
 };
-
-std::mutex& fftwPlannerMutex()
-{
-    static std::mutex m;
-    return m;
-}
 
 FftPlans plansFor(int n)
 {

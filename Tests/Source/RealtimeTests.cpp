@@ -1,6 +1,7 @@
 // Realtime safety: the audio callback never allocates. The test binary replaces the global
 // allocation functions with counting ones that complain while a block is being processed.
 #include "ChainFile.h"
+#include "LiveAnalyzer.h"
 #include "PluginProcessor.h"
 
 #include <catch2/catch.hpp>
@@ -175,4 +176,50 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
     }
     CHECK(allocationsInCallback.load() == 0);
     CHECK(finite);
+}
+
+TEST_CASE("realtime: the live analyzer's feed never allocates, its thread draining meanwhile",
+          "[plugin][analyzer]")
+{
+    // Common practice (no heap allocation on the audio thread). The analyzer is on, its
+    // background thread pops the FIFO and analyses concurrently; the editor-side calls
+    // (new bands, snapshots taken) happen between blocks as the message thread would.
+    juce::ScopedJuceInitialiser_GUI init;
+    kerf::KerfProcessor p;
+    p.setPlayConfigDetails(2, 2, 48000.0, 256);
+    p.prepareToPlay(48000.0, 256);
+    kerf::LiveAnalyzer live(p);
+    std::vector<double> edges;
+    for (int c = 0; c <= 500; ++c)
+        edges.push_back(20.0 * std::pow(1000.0, c / 500.0));
+    live.setBandEdges(edges);
+    live.setEnabled(true); // with its thread
+    REQUIRE(p.analyzerFeedOn());
+    juce::AudioBuffer<float> buffer(2, 256);
+    juce::MidiBuffer midi;
+    std::mt19937 rng(777u);
+    std::uniform_real_distribution<float> u(-0.5f, 0.5f);
+    int snapshots = 0;
+    for (int block = 0; block < 600; ++block)
+    {
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < 256; ++i)
+                buffer.setSample(ch, i, u(rng));
+        inAudioCallback = true;
+        p.processBlock(buffer, midi);
+        inAudioCallback = false;
+        if (block % 8 == 0)
+        {
+            snapshots += live.update() ? 1 : 0;
+            juce::Thread::sleep(1); // let the analysis thread run
+        }
+    }
+    CHECK(allocationsInCallback.load() == 0);
+    // Everything was offered: taken, or dropped and counted when the thread fell behind.
+    CHECK(p.analyzerFifo().pushed() + p.analyzerFifo().dropped() == 600u * 256u);
+    live.setEnabled(false);
+    CHECK_FALSE(p.analyzerFeedOn());
+    live.pump(); // whatever was left
+    CHECK(live.analysis().frames() > 0);
+    CHECK(snapshots + (live.update() ? 1 : 0) > 0);
 }
