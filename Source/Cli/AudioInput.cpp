@@ -46,6 +46,12 @@ std::unique_ptr<AudioInput> AudioInput::open(const juce::File& file, juce::Strin
                 stream->getStatus().getErrorMessage();
         return nullptr;
     }
+    return open(std::move(stream), file.getFullPathName(), error);
+}
+
+std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> stream,
+                                             const juce::String& name, juce::String& error)
+{
     juce::AudioFormatManager formats;
     formats.registerBasicFormats();
     auto input = std::unique_ptr<AudioInput>(new AudioInput());
@@ -54,8 +60,8 @@ std::unique_ptr<AudioInput> AudioInput::open(const juce::File& file, juce::Strin
         formats.createReaderFor(std::unique_ptr<juce::InputStream>(input->detector_)));
     if (input->reader_ == nullptr)
     {
-        error = "input " + file.getFullPathName() +
-                " is not a readable WAV, AIFF or FLAC file (unsupported or damaged)";
+        error =
+            "input " + name + " is not a readable WAV, AIFF or FLAC file (unsupported or damaged)";
         return nullptr;
     }
     // Uncompressed formats read exactly what the header promises; a short read means the
@@ -66,8 +72,14 @@ std::unique_ptr<AudioInput> AudioInput::open(const juce::File& file, juce::Strin
     const auto& r = *input->reader_;
     if (r.sampleRate <= 0 || r.numChannels == 0 || r.lengthInSamples < 0)
     {
-        error = "input " + file.getFullPathName() + " has no usable audio (rate " +
-                juce::String(r.sampleRate) + ", channels " + juce::String(r.numChannels) + ")";
+        error = "input " + name + " has no usable audio (rate " + juce::String(r.sampleRate) +
+                ", channels " + juce::String(r.numChannels) + ")";
+        return nullptr;
+    }
+    if (r.numChannels > static_cast<unsigned int>(kMaxChannels))
+    {
+        error = "input " + name + " has " + juce::String(r.numChannels) +
+                " channels; kerf reads at most " + juce::String(kMaxChannels);
         return nullptr;
     }
     return input;
