@@ -353,11 +353,65 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     return {};
 }
 
+/// JUCE 7.0.5's JSON parser reads the whole-number part of every number into a 64-bit
+/// integer with no overflow check (juce_JSON.cpp, JSONParser::parseNumber): 19 or more
+/// digits overflow, which is undefined behaviour and in practice wraps (2^64 + 1 would read
+/// as 1). No chain-file field needs such a number, so it is refused before JUCE parses.
+/// Found by fuzzing (Tests/fuzz/regressions/chain_file). Returns an error or nothing.
+juce::String overlongNumberError(const juce::String& text)
+{
+    juce::juce_wchar quote = 0, prev = 0, prev2 = 0, beforeRun = 0, beforeSign = 0;
+    bool escaped = false;
+    int line = 1, run = 0;
+    for (auto p = text.getCharPointer(); !p.isEmpty();)
+    {
+        const auto c = p.getAndAdvance();
+        if (c == '\n')
+            ++line;
+        if (quote != 0) // inside a string (JUCE accepts both quote marks)
+        {
+            if (escaped)
+                escaped = false;
+            else if (c == '\\')
+                escaped = true;
+            else if (c == quote)
+                quote = 0;
+        }
+        else if (c == '"' || c == '\'')
+            quote = c;
+        else if (c >= '0' && c <= '9')
+        {
+            if (run++ == 0)
+            {
+                beforeRun = prev;
+                beforeSign = prev2;
+            }
+            const bool fraction = beforeRun == '.';
+            const bool exponent = beforeRun == 'e' || beforeRun == 'E' ||
+                                  ((beforeRun == '+' || beforeRun == '-') &&
+                                   (beforeSign == 'e' || beforeSign == 'E'));
+            if (run == 19 && !fraction && !exponent)
+                return "line " + juce::String(line) +
+                       ": a number with 19 or more digits before its decimal point";
+        }
+        if (c < '0' || c > '9')
+            run = 0;
+        prev2 = prev;
+        prev = c;
+    }
+    return {};
+}
+
 } // namespace
 
 ChainReadResult parseChainJson(const juce::String& jsonText)
 {
     ChainReadResult r;
+    if (const auto overlong = overlongNumberError(jsonText); overlong.isNotEmpty())
+    {
+        r.error = "not valid JSON: " + overlong;
+        return r;
+    }
     juce::var root;
     const auto parsed = juce::JSON::parse(jsonText, root);
     if (parsed.failed())
