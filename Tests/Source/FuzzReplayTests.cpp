@@ -1,0 +1,96 @@
+// Replays every kept fuzz input (Tests/fuzz/corpus: seeds; Tests/fuzz/regressions: inputs
+// that once crashed or broke a promise) through the same entry points as the libFuzzer
+// targets (Tests/fuzz/FuzzChecks.h), in the normal build, so a regression shows without
+// clang. Common practice (libFuzzer's documentation): crash inputs become regression tests.
+#include "ChainFile.h"
+#include "FuzzChecks.h"
+
+#include <catch2/catch.hpp>
+
+using namespace kerf;
+
+namespace
+{
+
+juce::Array<juce::File> keptInputs(const char* kind, const char* target)
+{
+    const auto dir = juce::File(KERF_SOURCE_DIR)
+                         .getChildFile("Tests/fuzz")
+                         .getChildFile(kind)
+                         .getChildFile(target);
+    auto files = dir.findChildFiles(juce::File::findFiles, false, "*");
+    files.removeIf([](const juce::File& f) { return f.getFileName().startsWithChar('.'); });
+    files.sort();
+    return files;
+}
+
+/// Feeds every kept input of `target` to `check`; seeds must be accepted (they are valid
+/// inputs), regressions may be refused, but with a message; no input may break a promise.
+template <typename Check> void replay(const char* target, int minSeeds, Check check)
+{
+    const auto seeds = keptInputs("corpus", target);
+    REQUIRE(seeds.size() >= minSeeds);
+    for (const auto& kind : {"corpus", "regressions"})
+        for (const auto& file : keptInputs(kind, target))
+        {
+            juce::MemoryBlock bytes;
+            REQUIRE(file.loadFileAsData(bytes));
+            const fuzz::Outcome outcome = check(bytes.getData(), bytes.getSize());
+            INFO(kind << "/" << target << "/" << file.getFileName() << ": " << outcome.message
+                      << outcome.violation);
+            CHECK(outcome.violation.isEmpty());
+            if (juce::String(kind) == "corpus")
+            {
+                CHECK(outcome.accepted);
+                CHECK(outcome.message.isEmpty()); // audio seeds also read to their end
+            }
+            else
+                CHECK((outcome.accepted || outcome.message.isNotEmpty()));
+        }
+}
+
+} // namespace
+
+TEST_CASE("fuzz replay: chain files", "[fuzz]")
+{
+    replay("chain_file", 4,
+           [](const void* d, std::size_t n) { return fuzz::checkChainFile(d, n); });
+}
+
+TEST_CASE("fuzz replay: plugin state restore", "[fuzz]")
+{
+    juce::ScopedJuceInitialiser_GUI init;
+    struct Quiet : juce::Logger
+    {
+        void logMessage(const juce::String&) override {}
+    } quiet;
+    juce::Logger::setCurrentLogger(&quiet);
+    {
+        KerfProcessor p;
+        replay("plugin_state", 2,
+               [&p](const void* d, std::size_t n) { return fuzz::checkPluginState(p, d, n); });
+    }
+    juce::Logger::setCurrentLogger(nullptr);
+}
+
+TEST_CASE("fuzz replay: audio input", "[fuzz]")
+{
+    replay("audio_input", 6,
+           [](const void* d, std::size_t n) { return fuzz::checkAudioInput(d, n); });
+}
+
+TEST_CASE("fuzz regression: a whole number too long for JUCE's JSON parser is refused", "[fuzz]")
+{
+    // JUCE 7.0.5 reads a number's whole part into a signed 64-bit integer without an overflow
+    // check (juce_JSON.cpp); signed overflow is undefined (C++20 [expr.pre]/4) and wraps
+    // in practice (arithmetic modulo 2^64): 18446744073709551617 = 2^64 + 1 would read as 1.
+    const juce::String text = R"({"format": "kerf-chain", "version": 18446744073709551617,
+        "stages": [{"type": "peaking", "freq_hz": 1000}]})";
+    const auto r = parseChainJson(text);
+    CHECK_FALSE(r.ok);
+    CHECK(r.error.contains("19 or more digits"));
+    // Long fractions and exponents go through JUCE's double reader and stay accepted.
+    const auto fine = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000.00000000000000000001, "gain_db": 1e-00000000000000000001}]})");
+    CHECK(fine.ok);
+}
