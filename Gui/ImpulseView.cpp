@@ -23,6 +23,19 @@ double niceCeil(double x)
     return 10.0 * decade;
 }
 
+/// The smallest of 1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 8 times a power of ten at or above x (the
+/// linear scale's top, so a peak fills most of the height).
+double scaleCeil(double x)
+{
+    if (!(x > 0.0))
+        return 1.0;
+    const double decade = std::pow(10.0, std::floor(std::log10(x)));
+    for (double m : {1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0, 10.0})
+        if (m * decade >= x * (1.0 - 1e-12))
+            return m * decade;
+    return 10.0 * decade;
+}
+
 /// A 1-2-5 step giving at most maxLines steps over span.
 double niceStep(double span, int maxLines)
 {
@@ -121,7 +134,7 @@ void ImpulseView::evaluateIfNeeded()
         if (std::isfinite(v))
             peak = std::max(peak, std::abs(v));
     }
-    linearRange = niceCeil(1.05 * peak);
+    linearRange = scaleCeil(1.02 * peak);
     linearStep = niceStep(2.0 * linearRange, 8);
     topDb = peak > 0.0 ? 10.0 * std::ceil(20.0 * std::log10(peak) / 10.0 + 1e-9) : 0.0;
     ++renders;
@@ -224,7 +237,7 @@ void ImpulseView::paintGrid(juce::Graphics& g)
     g.drawText("ms", 4, plot.getBottom() + 3, 24, 14, juce::Justification::left);
     const double vStep = showDb ? 20.0 : linearStep;
     const double lo = showDb ? topDb - kDbSpan : -linearRange, hi = showDb ? topDb : linearRange;
-    for (double v = lo; v <= hi + 1e-9 * vStep; v += vStep)
+    for (double v = std::ceil(lo / vStep - 1e-9) * vStep; v <= hi + 1e-9 * vStep; v += vStep)
     {
         const int y = static_cast<int>(std::floor(showDb ? yForDb(v) : yForValue(v)));
         const bool zero = !showDb && std::abs(v) < 1e-9 * vStep;

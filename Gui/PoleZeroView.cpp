@@ -93,18 +93,19 @@ PoleZeroView::PoleZeroView()
     addAndMakeVisible(zoomButton);
     stageBox.setComponentID("zplaneStage");
     stageBox.setTooltip("Draws one stage's roots in full colour and dims the others");
-    stageBox.onChange = [this] { setHighlightedStage(stageBox.getSelectedId() - 2); };
+    stageBox.onChange = [this] { setHighlightedStage(std::max(-1, stageBox.getSelectedId() - 2)); };
     addAndMakeVisible(stageBox);
 }
 
 void PoleZeroView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz)
 {
-    if (!dirty && sampleRateHz == sampleRate && newChain.numStages == chain.numStages &&
+    if (haveChain && sampleRateHz == sampleRate && newChain.numStages == chain.numStages &&
         std::equal(newChain.stages.begin(), newChain.stages.begin() + newChain.numStages,
                    chain.stages.begin()))
         return;
     chain = newChain;
     sampleRate = sampleRateHz;
+    haveChain = true;
     dirty = true;
     // The stage list of the highlight box follows the chain's enabled stages.
     stageBox.clear(juce::dontSendNotification);
@@ -303,51 +304,52 @@ void PoleZeroView::paintGrid(juce::Graphics& g)
     const auto plotF = plot.toFloat();
     g.setColour(kSand.withAlpha(0.25f));
     g.drawRect(plot);
-    juce::Graphics::ScopedSaveState save(g);
-    g.reduceClipRegion(plot);
-    // Axes through the origin.
     const auto origin = pointForZ({0.0, 0.0});
-    g.setColour(kSand.withAlpha(0.28f));
-    g.drawHorizontalLine(juce::roundToInt(origin.y - 0.5f), plotF.getX(), plotF.getRight());
-    g.drawVerticalLine(juce::roundToInt(origin.x - 0.5f), plotF.getY(), plotF.getBottom());
-    // Circles of radius 0.5 (faint) and 1 (the unit circle).
     const double scale = 0.5 * plot.getWidth() / halfSize;
-    for (double r : {0.5, 1.0})
-    {
-        const float pr = static_cast<float>(r * scale);
-        g.setColour(kSand.withAlpha(r == 1.0 ? 0.55f : 0.12f));
-        g.drawEllipse(origin.x - pr, origin.y - pr, 2.0f * pr, 2.0f * pr, r == 1.0 ? 1.2f : 1.0f);
-    }
-    // Frequency ticks on the upper half of the unit circle: the angle of f is 2 pi f / fs.
-    g.setFont(10.0f);
+    // Frequency ticks on the upper half of the unit circle (the angle of f is 2 pi f / fs),
+    // labelled from Nyquist downwards wherever a label is at least 22 px of arc from the last.
     const double nyquist = 0.5 * sampleRate;
-    auto tick = [&](double hz, bool label)
+    auto freqs = tickFrequencies(nyquist);
+    freqs.push_back(nyquist);
+    std::vector<std::pair<juce::Point<float>, double>> labels;
     {
-        const double w = 2.0 * std::numbers::pi * hz / sampleRate;
-        const auto inner = pointForZ(std::polar(1.0 - 6.0 / scale, w));
-        const auto outer = pointForZ(std::polar(1.0 + 6.0 / scale, w));
+        juce::Graphics::ScopedSaveState save(g);
+        g.reduceClipRegion(plot);
+        // Axes through the origin, circles of radius 0.5 (faint) and 1 (the unit circle).
+        g.setColour(kSand.withAlpha(0.28f));
+        g.drawHorizontalLine(juce::roundToInt(origin.y - 0.5f), plotF.getX(), plotF.getRight());
+        g.drawVerticalLine(juce::roundToInt(origin.x - 0.5f), plotF.getY(), plotF.getBottom());
+        for (double r : {0.5, 1.0})
+        {
+            const float pr = static_cast<float>(r * scale);
+            g.setColour(kSand.withAlpha(r == 1.0 ? 0.55f : 0.12f));
+            g.drawEllipse(origin.x - pr, origin.y - pr, 2.0f * pr, 2.0f * pr,
+                          r == 1.0 ? 1.2f : 1.0f);
+        }
+        double lastLabelled = 1.0e300;
         g.setColour(kSand.withAlpha(0.5f));
-        g.drawLine({inner, outer}, 1.0f);
-        if (!label)
-            return;
-        const auto at = pointForZ(std::polar(1.0 + 16.0 / scale, w));
-        g.setColour(kSand.withAlpha(0.75f));
-        const auto text = hz >= 1000.0 ? juce::String(hz / 1000.0, 0) + "k" : juce::String(hz, 0);
-        g.drawText(text, juce::Rectangle<float>(36.0f, 12.0f).withCentre(at),
-                   juce::Justification::centred);
-    };
-    // Labels only where neighbours are at least 22 px apart along the circle.
-    const auto freqs = tickFrequencies(nyquist);
-    double lastLabelled = -1.0e9;
-    for (double f : freqs)
-    {
-        const double arcPx = 2.0 * std::numbers::pi * f / sampleRate * scale;
-        const bool label = arcPx - lastLabelled >= 22.0;
-        if (label)
-            lastLabelled = arcPx;
-        tick(f, label);
+        for (auto it = freqs.rbegin(); it != freqs.rend(); ++it)
+        {
+            const double w = 2.0 * std::numbers::pi * *it / sampleRate;
+            g.drawLine({pointForZ(std::polar(1.0 - 6.0 / scale, w)),
+                        pointForZ(std::polar(1.0 + 6.0 / scale, w))},
+                       1.0f);
+            if (lastLabelled - w * scale >= 22.0)
+            {
+                lastLabelled = w * scale;
+                labels.push_back({pointForZ(std::polar(1.0 + 16.0 / scale, w)), *it});
+            }
+        }
     }
-    tick(nyquist, true);
+    // Labels may lie just outside the plot; they stay below the button strip.
+    juce::Graphics::ScopedSaveState save(g);
+    g.reduceClipRegion(getLocalBounds().withTrimmedTop(28));
+    g.setFont(10.0f);
+    g.setColour(kSand.withAlpha(0.75f));
+    for (const auto& [at, hz] : labels)
+        g.drawText(hz >= 1000.0 ? juce::String(hz / 1000.0, 0) + "k" : juce::String(hz, 0),
+                   juce::Rectangle<float>(36.0f, 12.0f).withCentre(at),
+                   juce::Justification::centred);
 }
 
 void PoleZeroView::paintMark(juce::Graphics& g, const Mark& m) const

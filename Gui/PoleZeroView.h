@@ -104,6 +104,7 @@ private:
     dsp::ChainSpec chain;
     double sampleRate = 48000.0;
     bool dirty = true;
+    bool haveChain = false;
     struct CachedStage
     {
         dsp::StageSpec spec;
