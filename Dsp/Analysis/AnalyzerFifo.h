@@ -15,6 +15,9 @@ namespace kerf::dsp
 /// the constructor (allocates); push and pop never allocate, lock or wait.
 class AnalyzerFifo
 {
+    static_assert(std::atomic<std::uint64_t>::is_always_lock_free,
+                  "the audio thread may only touch lock-free atomics");
+
 public:
     /// capacityPairs is rounded up to a power of two.
     explicit AnalyzerFifo(int capacityPairs)

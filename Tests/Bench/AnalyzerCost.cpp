@@ -1,7 +1,7 @@
 // The live analyzer's cost on the editor side: repainting at 30 frames per second with the
 // analyzer on, as CPU time per second of (simulated) wall time, in percent of one core.
 //
-//   kerf_analyzer_cost [repetitions=9] [seconds=2]
+//   kerf_analyzer_cost [repetitions=9] [seconds=2] [last-paint.png]
 //
 // The processor runs a chain on a music-like test signal (48 kHz, 512-sample blocks); every
 // 1/30 s of audio, the analysis drains the FIFO (LiveAnalyzer::pump, the background
@@ -72,6 +72,9 @@ int main(int argc, char** argv)
     processor.prepareToPlay(kFs, kBlock);
     kerf::KerfEditor editor(processor); // its default size
     auto& response = editor.responseView();
+    // Let the response curve arrive (its evaluation may finish asynchronously).
+    editor.refreshResponse();
+    juce::MessageManager::getInstance()->runDispatchLoopUntil(1500);
     auto& view = editor.analyzerView();
     juce::Image image(juce::Image::ARGB, response.getWidth(), response.getHeight(), true,
                       juce::SoftwareImageType());
@@ -155,6 +158,20 @@ int main(int argc, char** argv)
                     "%%\n",
                     on ? "on" : "off", median(plot), *std::min_element(plot.begin(), plot.end()),
                     *std::max_element(plot.begin(), plot.end()), median(whole), median(analysis));
+    }
+    // Sanity: the painted plot holds the response curve (its own colour) as well.
+    int curvePixels = 0;
+    for (int y = 0; y < image.getHeight(); ++y)
+        for (int x = 0; x < image.getWidth(); ++x)
+            curvePixels += image.getPixelAt(x, y) == kerf::ResponseView::curveColour() ? 1 : 0;
+    std::printf("curve-coloured pixels in the last paint: %d\n", curvePixels);
+    if (argc > 3) // the last paint, to look at
+    {
+        juce::File file(juce::File::getCurrentWorkingDirectory().getChildFile(argv[3]));
+        file.deleteFile();
+        juce::FileOutputStream stream(file);
+        if (stream.openedOk())
+            juce::PNGImageFormat().writeImageToStream(image, stream);
     }
     std::printf("dropped pairs: %llu (analysis kept up: expect 0)\n",
                 static_cast<unsigned long long>(processor.analyzerFifo().dropped()));
