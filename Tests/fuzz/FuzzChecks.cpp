@@ -186,6 +186,7 @@ Outcome checkAudioInput(const void* data, std::size_t size)
     }
     const auto& reader = input->reader();
     if (!std::isfinite(reader.sampleRate) || reader.sampleRate <= 0.0 || reader.numChannels < 1 ||
+        reader.numChannels > static_cast<unsigned int>(cli::AudioInput::kMaxChannels) ||
         reader.lengthInSamples < 0)
     {
         out.violation = "opened with rate " + juce::String(reader.sampleRate) + ", channels " +

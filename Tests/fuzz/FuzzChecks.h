@@ -31,8 +31,8 @@ Outcome checkChainFile(const void* data, std::size_t size);
 Outcome checkPluginState(KerfProcessor& processor, const void* data, std::size_t size);
 
 /// The command line's audio input: either an error message, or a reader with a finite
-/// positive sample rate and at least one channel whose blocks (the command line's block
-/// size, the first `kMaxFuzzFrames` frames) read without a crash.
+/// positive sample rate and 1 to `cli::AudioInput::kMaxChannels` channels whose blocks
+/// (the command line's block size, the first `kMaxFuzzFrames` frames) read without a crash.
 Outcome checkAudioInput(const void* data, std::size_t size);
 
 /// Frames read per audio input (keeps one input quick; the reading code is the same).
