@@ -249,7 +249,7 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         hFrom[i] = p.from.mHigh;
         hLin[i] = p.to.mHigh - p.from.mHigh;
         hSign[i] = p.signHigh;
-        hDb[i] = high ? -1.0 : 0.0; // all bits set where the weight moves in dB
+        hDb[i] = high ? -1.0 : 0.0; // sign bit set (blendv) where the weight moves in dB
         lFrom[i] = p.from.mLow;
         lLin[i] = p.to.mLow - p.from.mLow;
         lSign[i] = p.signLow;
