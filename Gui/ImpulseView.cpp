@@ -1,6 +1,7 @@
 #include "ImpulseView.h"
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 
 namespace kerf
@@ -68,6 +69,18 @@ ImpulseView::ImpulseView()
         if (dbButton.getToggleState())
             setDecibels(true);
     };
+    worker = std::thread([this] { workerLoop(); });
+}
+
+ImpulseView::~ImpulseView()
+{
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        quitting = true;
+    }
+    workReady.notify_all();
+    worker.join();
+    cancelPendingUpdate();
 }
 
 void ImpulseView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz, double outputGainDb)
@@ -83,7 +96,7 @@ void ImpulseView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz, 
     haveChain = true;
     dirty = true;
     if (isVisible())
-        evaluateIfNeeded();
+        requestTrace();
     repaint();
 }
 
@@ -96,49 +109,108 @@ void ImpulseView::setDecibels(bool db)
 
 void ImpulseView::visibilityChanged()
 {
-    if (isVisible())
-        evaluateIfNeeded();
-}
-
-const std::vector<double>& ImpulseView::samples()
-{
-    evaluateIfNeeded();
-    return h;
-}
-
-const std::vector<ImpulseView::Column>& ImpulseView::columns()
-{
-    evaluateIfNeeded();
-    return cols;
+    if (isVisible() && dirty)
+        requestTrace();
 }
 
 double ImpulseView::durationSeconds() const noexcept
 {
-    return h.size() > 1 ? static_cast<double>(h.size() - 1) / sampleRate : kMinSeconds;
+    return h.size() > 1 ? static_cast<double>(h.size() - 1) / shownRate : kMinSeconds;
 }
 
-void ImpulseView::evaluateIfNeeded()
+void ImpulseView::requestTrace()
 {
-    if (!dirty)
-        return;
     dirty = false;
-    tail = dsp::chainTailSeconds(chain, sampleRate);
-    const double seconds = std::clamp(1.1 * tail, kMinSeconds, kMaxSeconds);
-    const int length = std::max(2, static_cast<int>(std::ceil(seconds * sampleRate)) + 1);
-    h = dsp::impulseResponse(chain, sampleRate, length);
-    const double gain = std::pow(10.0, gainDb / 20.0);
-    double peak = 0.0;
-    for (auto& v : h)
     {
-        v *= gain;
-        if (std::isfinite(v))
-            peak = std::max(peak, std::abs(v));
+        const std::lock_guard<std::mutex> lock(workMutex);
+        pending = Request{++lastRequestId, chain, sampleRate, gainDb};
     }
-    linearRange = scaleCeil(1.02 * peak);
+    workReady.notify_one();
+}
+
+void ImpulseView::workerLoop()
+{
+    for (;;)
+    {
+        Request request;
+        {
+            std::unique_lock<std::mutex> lock(workMutex);
+            workReady.wait(lock, [this] { return quitting || pending.has_value(); });
+            if (quitting)
+                return;
+            request = std::move(*pending);
+            pending.reset();
+        }
+        const auto start = std::chrono::steady_clock::now();
+        Result r;
+        r.id = request.id;
+        r.sampleRateHz = request.sampleRateHz;
+        r.tail = dsp::chainTailSeconds(request.chain, request.sampleRateHz);
+        const double seconds = std::clamp(1.1 * r.tail, kMinSeconds, kMaxSeconds);
+        const int length =
+            std::max(2, static_cast<int>(std::ceil(seconds * request.sampleRateHz)) + 1);
+        r.h = dsp::impulseResponse(request.chain, request.sampleRateHz, length);
+        const double gain = std::pow(10.0, request.gainDb / 20.0);
+        for (auto& v : r.h)
+        {
+            v *= gain;
+            if (std::isfinite(v))
+                r.peak = std::max(r.peak, std::abs(v));
+        }
+        r.ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start)
+                   .count();
+        {
+            const std::lock_guard<std::mutex> lock(workMutex);
+            finished = std::move(r);
+        }
+        resultReady.notify_all();
+        triggerAsyncUpdate();
+    }
+}
+
+bool ImpulseView::takeResult()
+{
+    std::optional<Result> r;
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        r.swap(finished);
+    }
+    if (!r)
+        return false;
+    shownId = r->id;
+    h = std::move(r->h);
+    shownRate = r->sampleRateHz;
+    tail = r->tail;
+    renderMs = r->ms;
+    linearRange = scaleCeil(1.02 * r->peak);
     linearStep = niceStep(2.0 * linearRange, 8);
-    topDb = peak > 0.0 ? 10.0 * std::ceil(20.0 * std::log10(peak) / 10.0 + 1e-9) : 0.0;
+    topDb = r->peak > 0.0 ? 10.0 * std::ceil(20.0 * std::log10(r->peak) / 10.0 + 1e-9) : 0.0;
     ++renders;
     buildColumns();
+    repaint();
+    return true;
+}
+
+void ImpulseView::handleAsyncUpdate()
+{
+    takeResult();
+}
+
+bool ImpulseView::waitForTrace(int timeoutMs)
+{
+    if (dirty)
+        requestTrace();
+    {
+        std::unique_lock<std::mutex> lock(workMutex);
+        const auto wanted = lastRequestId;
+        if (shownId == wanted)
+            return true;
+        if (!resultReady.wait_for(lock, std::chrono::milliseconds(timeoutMs),
+                                  [&] { return finished && finished->id == wanted; }))
+            return false;
+    }
+    cancelPendingUpdate();
+    return takeResult();
 }
 
 void ImpulseView::buildColumns()
@@ -161,8 +233,8 @@ void ImpulseView::buildColumns()
     cols.resize(static_cast<std::size_t>(width));
     for (int c = 0; c < width; ++c)
     {
-        const double ua = timeForX(plot.getX() + c) * sampleRate;
-        const double ub = timeForX(plot.getX() + c + 1) * sampleRate;
+        const double ua = timeForX(plot.getX() + c) * shownRate;
+        const double ub = timeForX(plot.getX() + c + 1) * shownRate;
         double lo = at(ua), hi = lo;
         auto take = [&](double v)
         {
@@ -253,7 +325,6 @@ void ImpulseView::paintGrid(juce::Graphics& g)
 
 void ImpulseView::paint(juce::Graphics& g)
 {
-    evaluateIfNeeded();
     g.fillAll(kGround);
     if (plot.isEmpty())
         return;
@@ -261,6 +332,8 @@ void ImpulseView::paint(juce::Graphics& g)
     g.setFont(11.0f);
     juce::String what = showDb ? "impulse response, dB of |h| (envelope)" : "impulse response h[n]";
     what << ", " << juce::String(h.size()) << " samples";
+    if (shownId != lastRequestId)
+        what << " (rendering...)";
     if (1.1 * tail > kMaxSeconds)
         what << "; first " << juce::String(kMaxSeconds, 0) << " s of a " << juce::String(tail, 1)
              << " s tail";

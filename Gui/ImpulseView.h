@@ -6,6 +6,11 @@
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
+#include <condition_variable>
+#include <cstdint>
+#include <mutex>
+#include <optional>
+#include <thread>
 #include <vector>
 
 namespace kerf
@@ -16,9 +21,10 @@ namespace kerf
 /// least kMinSeconds and at most kMaxSeconds. Each pixel column covers a time interval and
 /// draws the run from the lowest to the highest value in it (samples inside and the trace
 /// interpolated at the interval's ends), so long responses draw without aliasing and short
-/// ones as a connected line. Rendered on the message thread, only when the chain, rate, gain
-/// or size changed and the view is visible.
-class ImpulseView : public juce::Component
+/// ones as a connected line. Rendered on the view's own background thread (2 s of a comb
+/// takes a few hundred ms; never the audio thread, never blocking the message thread), only
+/// when the chain, rate or gain changed and the view is visible; the newest request wins.
+class ImpulseView : public juce::Component, private juce::AsyncUpdater
 {
 public:
     static constexpr double kMinSeconds = 0.005;
@@ -27,6 +33,7 @@ public:
     static constexpr double kDbSpan = 100.0;
 
     ImpulseView();
+    ~ImpulseView() override;
 
     /// Takes the chain to draw; renders again only when something differs from the last call.
     void setChain(const dsp::ChainSpec& chain, double sampleRateHz, double outputGainDb = 0.0);
@@ -39,8 +46,11 @@ public:
     void visibilityChanged() override;
 
     // ---- What is drawn and where (public for tests) ---------------------------------------
-    /// The samples of the last render (output gain applied).
-    const std::vector<double>& samples();
+    /// Message thread: asks for the response if the chain changed while hidden, waits until
+    /// the latest chain's is rendered and takes it. False on timeout.
+    bool waitForTrace(int timeoutMs = 20000);
+    /// The samples drawn now (output gain applied).
+    const std::vector<double>& samples() const noexcept { return h; }
     /// The tail the chain reports, seconds (before the length limits).
     double tailSeconds() const noexcept { return tail; }
     /// The drawn duration in seconds (samples().size() / rate).
@@ -61,13 +71,18 @@ public:
     {
         double low = 0.0, high = 0.0, peakDb = 0.0;
     };
-    const std::vector<Column>& columns();
+    const std::vector<Column>& columns() const noexcept { return cols; }
     /// The trace colour (opaque; nothing else in the plot uses it).
     static juce::Colour traceColour() noexcept { return juce::Colour(0xff9fd36b); }
     int renderCount() const noexcept { return renders; }
+    /// Milliseconds the last render took (impulse response and columns).
+    double lastRenderMs() const noexcept { return renderMs; }
 
 private:
-    void evaluateIfNeeded();
+    void requestTrace();
+    void workerLoop();
+    bool takeResult();
+    void handleAsyncUpdate() override;
     void buildColumns();
     void paintGrid(juce::Graphics& g);
 
@@ -84,8 +99,32 @@ private:
     double topDb = 0.0;
     juce::Rectangle<int> plot;
     int renders = 0;
+    double renderMs = 0.0;
 
     juce::TextButton linearButton{"Linear"}, dbButton{"dB envelope"};
+
+    // The background render: requests in, responses out (both under workMutex).
+    struct Request
+    {
+        std::uint64_t id = 0;
+        dsp::ChainSpec chain;
+        double sampleRateHz = 48000.0, gainDb = 0.0;
+    };
+    struct Result
+    {
+        std::uint64_t id = 0;
+        std::vector<double> h;
+        double sampleRateHz = 48000.0, tail = 0.0, peak = 0.0, ms = 0.0;
+    };
+    std::mutex workMutex;
+    std::condition_variable workReady, resultReady;
+    std::optional<Request> pending;
+    std::optional<Result> finished;
+    std::uint64_t lastRequestId = 0;
+    std::uint64_t shownId = 0;  // message thread
+    double shownRate = 48000.0; // the rate of the samples drawn
+    bool quitting = false;
+    std::thread worker; // started in the constructor's body, joined first in the destructor
 };
 
 } // namespace kerf

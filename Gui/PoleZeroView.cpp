@@ -1,6 +1,7 @@
 #include "PoleZeroView.h"
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <numbers>
 
@@ -95,6 +96,18 @@ PoleZeroView::PoleZeroView()
     stageBox.setTooltip("Draws one stage's roots in full colour and dims the others");
     stageBox.onChange = [this] { setHighlightedStage(std::max(-1, stageBox.getSelectedId() - 2)); };
     addAndMakeVisible(stageBox);
+    worker = std::thread([this] { workerLoop(); });
+}
+
+PoleZeroView::~PoleZeroView()
+{
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        quitting = true;
+    }
+    workReady.notify_all();
+    worker.join();
+    cancelPendingUpdate();
 }
 
 void PoleZeroView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz)
@@ -117,7 +130,7 @@ void PoleZeroView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz)
         highlight = -1;
     stageBox.setSelectedId(highlight + 2, juce::dontSendNotification);
     if (isVisible())
-        evaluateIfNeeded();
+        requestRoots();
     repaint();
 }
 
@@ -136,60 +149,124 @@ void PoleZeroView::setZoomed(bool zoom)
     repaint();
 }
 
-const PoleZeroView::Model& PoleZeroView::model()
-{
-    evaluateIfNeeded();
-    return current;
-}
-
 void PoleZeroView::visibilityChanged()
 {
-    if (isVisible())
-        evaluateIfNeeded();
+    if (isVisible() && dirty)
+        requestRoots();
 }
 
-void PoleZeroView::evaluateIfNeeded()
+void PoleZeroView::requestRoots()
 {
-    if (!dirty)
-        return;
     dirty = false;
-    cache.resize(static_cast<std::size_t>(chain.numStages));
-    std::vector<std::complex<double>> zeros, poles;
-    std::vector<int> zeroStages, poleStages;
-    current.notes.clear();
-    for (int i = 0; i < chain.numStages; ++i)
     {
-        const auto& s = chain.stages[static_cast<std::size_t>(i)];
-        if (!s.enabled)
-            continue;
-        auto& c = cache[static_cast<std::size_t>(i)];
-        if (c.sampleRateHz != sampleRate || !(c.spec == s))
-        {
-            c.roots = dsp::stagePolesZeros(s, sampleRate);
-            c.spec = s;
-            c.sampleRateHz = sampleRate;
-            ++solves;
-        }
-        if (!c.roots.listed)
-        {
-            current.notes.push_back(stageName(s, i) + ": " + juce::String(c.roots.note));
-            continue;
-        }
-        for (const auto& z : c.roots.zeros)
-        {
-            zeros.push_back(z);
-            zeroStages.push_back(i);
-        }
-        for (const auto& p : c.roots.poles)
-        {
-            poles.push_back(p);
-            poleStages.push_back(i);
-        }
+        const std::lock_guard<std::mutex> lock(workMutex);
+        pending = Request{++lastRequestId, chain, sampleRate};
     }
-    current.marks = groupRoots(zeros, zeroStages, false);
-    auto p = groupRoots(poles, poleStages, true);
-    current.marks.insert(current.marks.end(), p.begin(), p.end());
+    workReady.notify_one();
+}
+
+void PoleZeroView::workerLoop()
+{
+    for (;;)
+    {
+        Request request;
+        {
+            std::unique_lock<std::mutex> lock(workMutex);
+            workReady.wait(lock, [this] { return quitting || pending.has_value(); });
+            if (quitting)
+                return;
+            request = std::move(*pending);
+            pending.reset();
+        }
+        const auto start = std::chrono::steady_clock::now();
+        const auto& c = request.chain;
+        cache.resize(static_cast<std::size_t>(c.numStages));
+        Result result;
+        result.id = request.id;
+        std::vector<std::complex<double>> zeros, poles;
+        std::vector<int> zeroStages, poleStages;
+        for (int i = 0; i < c.numStages; ++i)
+        {
+            const auto& s = c.stages[static_cast<std::size_t>(i)];
+            if (!s.enabled)
+                continue;
+            auto& cached = cache[static_cast<std::size_t>(i)];
+            if (cached.sampleRateHz != request.sampleRateHz || !(cached.spec == s))
+            {
+                cached.roots = dsp::stagePolesZeros(s, request.sampleRateHz);
+                cached.spec = s;
+                cached.sampleRateHz = request.sampleRateHz;
+                ++solves;
+            }
+            if (!cached.roots.listed)
+            {
+                result.model.notes.push_back(stageName(s, i) + ": " +
+                                             juce::String(cached.roots.note));
+                continue;
+            }
+            for (const auto& z : cached.roots.zeros)
+            {
+                zeros.push_back(z);
+                zeroStages.push_back(i);
+            }
+            for (const auto& p : cached.roots.poles)
+            {
+                poles.push_back(p);
+                poleStages.push_back(i);
+            }
+        }
+        result.model.marks = groupRoots(zeros, zeroStages, false);
+        auto p = groupRoots(poles, poleStages, true);
+        result.model.marks.insert(result.model.marks.end(), p.begin(), p.end());
+        result.ms =
+            std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start)
+                .count();
+        {
+            const std::lock_guard<std::mutex> lock(workMutex);
+            finished = std::move(result);
+        }
+        resultReady.notify_all();
+        triggerAsyncUpdate();
+    }
+}
+
+bool PoleZeroView::takeResult()
+{
+    std::optional<Result> result;
+    {
+        const std::lock_guard<std::mutex> lock(workMutex);
+        result.swap(finished);
+    }
+    if (!result)
+        return false;
+    shownId = result->id;
+    current = std::move(result->model);
+    evaluationMs = result->ms;
     chooseWindow();
+    repaint();
+    return true;
+}
+
+void PoleZeroView::handleAsyncUpdate()
+{
+    takeResult();
+}
+
+bool PoleZeroView::waitForRoots(int timeoutMs)
+{
+    if (dirty)
+        requestRoots();
+    {
+        std::unique_lock<std::mutex> lock(workMutex);
+        const auto wanted = lastRequestId;
+        if (shownId == wanted)
+            return true;
+        if (!resultReady.wait_for(lock, std::chrono::milliseconds(timeoutMs),
+                                  [&] { return finished && finished->id == wanted; }))
+            return false;
+    }
+    cancelPendingUpdate();
+    return takeResult();
 }
 
 void PoleZeroView::chooseWindow()
@@ -379,7 +456,6 @@ void PoleZeroView::paintMark(juce::Graphics& g, const Mark& m) const
 
 void PoleZeroView::paint(juce::Graphics& g)
 {
-    evaluateIfNeeded();
     g.fillAll(kGround);
     if (plot.isEmpty())
         return;
@@ -415,6 +491,8 @@ void PoleZeroView::paint(juce::Graphics& g)
          kSand.withAlpha(0.6f));
     for (const auto& n : current.notes)
         line(n, kSand.withAlpha(0.7f));
+    if (shownId != lastRequestId)
+        line("computing roots...", kSand.withAlpha(0.6f));
     const Mark* m = hoverPoint.x >= 0.0f ? markNear(hoverPoint) : nullptr;
     const juce::String readout =
         m != nullptr ? readoutFor(*m)

@@ -6,7 +6,13 @@
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
+#include <atomic>
 #include <complex>
+#include <condition_variable>
+#include <cstdint>
+#include <mutex>
+#include <optional>
+#include <thread>
 #include <vector>
 
 namespace kerf
@@ -17,9 +23,10 @@ namespace kerf
 /// Stages whose roots are not listed (combs, long or non-causal echo stages) get a one-line
 /// note. Hovering shows the nearest root's radius and angle (in Hz); one stage can be
 /// highlighted; a zoom shows the neighbourhood of z = 1, where low-frequency roots crowd.
-/// Roots are computed on the message thread, only for stages that changed, and only while
-/// the view is visible (the audio thread never sees this).
-class PoleZeroView : public juce::Component
+/// Roots are computed on the view's own background thread (an echo model of degree 600 takes
+/// about a second; never the audio thread, never blocking the message thread), only for
+/// stages that changed, and only while the view is visible; the newest request wins.
+class PoleZeroView : public juce::Component, private juce::AsyncUpdater
 {
 public:
     /// Roots closer than this in the z-plane (|z1 - z2|) count as one root of higher
@@ -52,6 +59,7 @@ public:
                                         double tolerance = kGroupTolerance);
 
     PoleZeroView();
+    ~PoleZeroView() override;
 
     /// Takes the chain to draw; roots are computed again only for stages that changed.
     void setChain(const dsp::ChainSpec& chain, double sampleRateHz);
@@ -64,8 +72,11 @@ public:
     bool zoomed() const noexcept { return zoomNearOne; }
     static constexpr double kZoomReach = 0.35;
 
-    /// The model of the last evaluation (evaluates now if the chain changed).
-    const Model& model();
+    /// The model drawn now (the last finished evaluation).
+    const Model& model() const noexcept { return current; }
+    /// Message thread: asks for the roots if the chain changed while hidden, waits until those
+    /// of the latest chain are computed and takes them. False on timeout.
+    bool waitForRoots(int timeoutMs = 20000);
 
     void paint(juce::Graphics& g) override;
     void resized() override;
@@ -93,36 +104,64 @@ public:
     static juce::Colour poleColour() noexcept { return juce::Colour(0xffef7b5f); }
     static juce::Colour zeroColour() noexcept { return juce::Colour(0xff62c2d6); }
     /// How many times stage roots have been computed (tests, diagnostics).
-    int rootSolves() const noexcept { return solves; }
+    int rootSolves() const noexcept { return solves.load(); }
+    /// Milliseconds the last evaluation took (background thread).
+    double lastEvaluationMs() const noexcept { return evaluationMs; }
 
 private:
-    void evaluateIfNeeded();
+    void requestRoots();
+    void workerLoop();
+    bool takeResult();
+    void handleAsyncUpdate() override;
     void chooseWindow();
     void paintGrid(juce::Graphics& g);
     void paintMark(juce::Graphics& g, const Mark& m) const;
 
     dsp::ChainSpec chain;
     double sampleRate = 48000.0;
-    bool dirty = true;
+    bool dirty = true; // the chain changed since roots were last asked for
     bool haveChain = false;
-    struct CachedStage
-    {
-        dsp::StageSpec spec;
-        double sampleRateHz = 0.0;
-        dsp::PoleZero roots;
-    };
-    std::vector<CachedStage> cache; // per chain index
     Model current;
+    double evaluationMs = 0.0;
     int highlight = -1;
     bool zoomNearOne = false;
     std::complex<double> centre{0.0, 0.0};
     double halfSize = 1.2;
     juce::Rectangle<int> plot;
     juce::Point<float> hoverPoint{-1.0f, -1.0f};
-    int solves = 0;
 
     juce::TextButton zoomButton{"Near z = 1"};
     juce::ComboBox stageBox;
+
+    // The background evaluation: requests in, models out (both under workMutex).
+    struct Request
+    {
+        std::uint64_t id = 0;
+        dsp::ChainSpec chain;
+        double sampleRateHz = 48000.0;
+    };
+    struct Result
+    {
+        std::uint64_t id = 0;
+        Model model;
+        double ms = 0.0;
+    };
+    struct CachedStage
+    {
+        dsp::StageSpec spec;
+        double sampleRateHz = 0.0;
+        dsp::PoleZero roots;
+    };
+    std::vector<CachedStage> cache; // per chain index; worker thread only
+    std::atomic<int> solves{0};
+    std::mutex workMutex;
+    std::condition_variable workReady, resultReady;
+    std::optional<Request> pending;
+    std::optional<Result> finished;
+    std::uint64_t lastRequestId = 0;
+    std::uint64_t shownId = 0; // message thread
+    bool quitting = false;
+    std::thread worker; // started in the constructor's body, joined first in the destructor
 };
 
 } // namespace kerf

@@ -8,6 +8,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <chrono>
 #include <complex>
 #include <cstdio>
 #include <functional>
@@ -205,6 +206,7 @@ TEST_CASE("z-plane view: marks lie within 2 px of the known roots, multiplicitie
         k.displayDeck().setPage(DisplayDeck::Page::zPlane);
         k.refreshResponse();
         auto& view = k.displayDeck().poleZeroView();
+        REQUIRE(view.waitForRoots());
         REQUIRE(view.isVisible());
         view.setZoomed(tc.zoom);
         REQUIRE(view.plotArea().getWidth() > 150);
@@ -257,6 +259,7 @@ TEST_CASE("z-plane view: readout, unlisted stages, highlight, grouping tolerance
     k.displayDeck().setPage(DisplayDeck::Page::zPlane);
     k.refreshResponse();
     auto& view = k.displayDeck().poleZeroView();
+    REQUIRE(view.waitForRoots());
     // The comb's roots are not listed: a note, and only the notch's two zeros and two poles.
     REQUIRE(view.model().notes.size() == 1);
     CHECK(view.model().notes[0].contains("comb"));
@@ -282,6 +285,7 @@ TEST_CASE("z-plane view: readout, unlisted stages, highlight, grouping tolerance
     // Only changed stages are solved again.
     const int solves = view.rootSolves();
     k.refreshResponse();
+    REQUIRE(view.waitForRoots());
     CHECK(view.model().marks.size() == 4);
     CHECK(view.rootSolves() == solves);
 
@@ -364,6 +368,7 @@ TEST_CASE("impulse view: the drawn trace lies within 2 px of the known impulse r
     k.displayDeck().setPage(DisplayDeck::Page::impulse);
     k.refreshResponse();
     auto& view = k.displayDeck().impulseView();
+    REQUIRE(view.waitForTrace());
     const double w0 = 2.0 * kPi * 1000.0 / kFs, c = std::cos(w0), alpha = std::sin(w0) / 8.0;
     const double b[3] = {(1.0 - c) / 2.0, 1.0 - c, (1.0 - c) / 2.0};
     const double a[3] = {1.0 + alpha, -2.0 * c, 1.0 - alpha};
@@ -453,6 +458,7 @@ TEST_CASE("impulse view: a long sparse response is drawn without aliasing", "[ed
     k.displayDeck().setPage(DisplayDeck::Page::impulse);
     k.refreshResponse();
     auto& view = k.displayDeck().impulseView();
+    REQUIRE(view.waitForTrace());
     const auto& cols = view.columns();
     const int samplesPerColumn =
         static_cast<int>(view.samples().size()) / view.plotArea().getWidth();
@@ -486,9 +492,14 @@ TEST_CASE("impulse view: the length follows the tail and is capped", "[editor][z
                 .isEmpty());
     std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
     auto& k = kerfEditor(*editor);
-    k.displayDeck().setPage(DisplayDeck::Page::impulse);
-    k.refreshResponse();
     auto& view = k.displayDeck().impulseView();
+    // Hidden views only keep the chain (common practice: no work for what is not shown).
+    k.refreshResponse();
+    CHECK(view.renderCount() == 0);
+    CHECK(k.displayDeck().poleZeroView().rootSolves() == 0);
+    k.displayDeck().setPage(DisplayDeck::Page::impulse);
+    REQUIRE(view.waitForTrace());
+    CHECK(view.renderCount() == 1);
     CHECK(view.tailSeconds() > 10.0);
     CHECK(view.durationSeconds() == Approx(ImpulseView::kMaxSeconds).margin(1.0 / kFs));
     // The loop's first return: h[4800] = 0.995 (feedback comb y[n] = x[n] + g y[n - D]).
@@ -496,4 +507,63 @@ TEST_CASE("impulse view: the length follows the tail and is capped", "[editor][z
     const int renders = view.renderCount();
     k.refreshResponse();
     CHECK(view.renderCount() == renders);
+    std::printf("impulse view: 2 s of a feedback comb (%d samples) rendered in %.0f ms\n",
+                static_cast<int>(view.samples().size()), view.lastRenderMs());
+}
+
+TEST_CASE("z-plane view: an echo inverse's roots, and what a degree-576 solve costs",
+          "[editor][zplane]")
+{
+    JuceGuard guard;
+    // 1 / (1 + a z^-D) with a = 0.5, D = 576 (12 ms at 48 kHz): poles where z^D = -a, i.e. D
+    // distinct roots on the radius a^(1/D), and D zeros at the origin (z^D / (z^D + a)).
+    // Source: README's echo model and the roots of z^D + a (closed form).
+    KerfProcessor p;
+    REQUIRE(p.importChain(parse(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "method": "exact", "reflections": [{"delay_ms": 12, "gain": 0.5}]}]})"))
+                .isEmpty());
+    std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
+    auto& k = kerfEditor(*editor);
+    k.displayDeck().setPage(DisplayDeck::Page::zPlane);
+    k.refreshResponse();
+    auto& view = k.displayDeck().poleZeroView();
+    REQUIRE(view.waitForRoots());
+    const auto& model = view.model();
+    const double ms = view.lastEvaluationMs();
+    int poles = 0, zeroMarks = 0;
+    double worstRadius = 0.0;
+    for (const auto& m : model.marks)
+    {
+        if (!m.pole)
+        {
+            ++zeroMarks;
+            CHECK(std::abs(m.z) < 1e-12);
+            CHECK(m.multiplicity == 576);
+            CHECK(m.label() == "576");
+            continue;
+        }
+        poles += m.multiplicity;
+        CHECK(m.multiplicity == 1);
+        worstRadius = std::max(worstRadius, std::abs(std::abs(m.z) - std::pow(0.5, 1.0 / 576.0)));
+    }
+    CHECK(zeroMarks == 1);
+    CHECK(poles == 576);
+    CHECK(worstRadius < 1e-8);
+    // A dense model (fractional delays: Lagrange taps fill the polynomial): diagnostic timing.
+    REQUIRE(p.importChain(parse(R"({"format": "kerf-chain", "version": 1, "stages": [
+      {"type": "echo_cancel", "method": "exact", "reflections": [{"delay_ms": 12.1, "gain": 0.4},
+                                                                 {"delay_ms": 5.17, "gain": -0.3}]}]})"))
+                .isEmpty());
+    const auto start = std::chrono::steady_clock::now();
+    k.refreshResponse(); // hands the chain over; the roots come from the view's thread
+    const double handOverMs =
+        std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count();
+    REQUIRE(view.waitForRoots());
+    const auto denseMarks = view.model().marks.size();
+    const double denseMs = view.lastEvaluationMs();
+    CHECK(view.model().notes.empty());
+    std::printf("z-plane view: echo inverse of degree 576: %d pole marks, worst radius error "
+                "%.1e, roots in %.0f ms; a dense degree-%d model in %.0f ms on the view's thread "
+                "(the editor's refresh returned after %.1f ms)\n",
+                poles, worstRadius, ms, static_cast<int>(denseMarks) - 1, denseMs, handOverMs);
 }
