@@ -101,7 +101,7 @@ void AnalyzerView::paintSpectra(juce::Graphics& g) const
     const auto& s = analysis.current();
     const auto plot = target->plotArea();
     const int width = plot.getWidth();
-    if (s.layout != expectedLayout || static_cast<int>(s.inputLevel.size()) != width)
+    if (width <= 0 || s.layout != expectedLayout || static_cast<int>(s.inputLevel.size()) != width)
         return; // bands of an older geometry: wait for the next snapshot
     drawn = true;
     const int x0 = plot.getX(), bottom = plot.getBottom();
