@@ -122,7 +122,10 @@ int runEchoEstimate(Args args)
     const double rate = reader.sampleRate;
     const auto length = reader.lengthInSamples;
     const int channels = static_cast<int>(reader.numChannels);
-    std::vector<float> mono(static_cast<std::size_t>(length), 0.0f);
+    // Grown block by block: the header's length is only a promise (a 108-byte WAV claiming
+    // 4 billion samples made an up-front allocation abort; found while writing the
+    // audio-input fuzz target, Tests/fuzz/regressions/audio_input).
+    std::vector<float> mono;
     juce::AudioBuffer<float> block(channels, 65536);
     for (juce::int64 done = 0; done < length;)
     {
@@ -132,6 +135,7 @@ int runEchoEstimate(Args args)
             printError("input " + pos[0] + " is truncated or damaged");
             return kExitFailure;
         }
+        mono.resize(static_cast<std::size_t>(done + n), 0.0f);
         for (int ch = 0; ch < channels; ++ch)
             for (int i = 0; i < n; ++i)
                 mono[static_cast<std::size_t>(done + i)] +=

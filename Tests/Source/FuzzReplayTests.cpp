@@ -94,3 +94,22 @@ TEST_CASE("fuzz regression: a whole number too long for JUCE's JSON parser is re
         [{"type": "peaking", "freq_hz": 1000.00000000000000000001, "gain_db": 1e-00000000000000000001}]})");
     CHECK(fine.ok);
 }
+
+TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[fuzz][cli]")
+{
+    // A 108-byte 8-bit WAV whose data chunk claims 0xFFFFFFF0 bytes: kerf echo-estimate once
+    // allocated the header's 4.29e9 samples before reading (17 GB; std::bad_alloc under a
+    // memory limit). Run under a 4 GB address-space limit so a relapse fails, not the host.
+    const auto wav = juce::File(KERF_SOURCE_DIR)
+                         .getChildFile("Tests/fuzz/regressions/audio_input")
+                         .getChildFile("wav-header-claims-4g-samples.wav");
+    REQUIRE(wav.existsAsFile());
+    juce::ChildProcess kerf;
+    REQUIRE(kerf.start(juce::StringArray{"/bin/sh", "-c",
+                                         "ulimit -v 4000000; exec \"$0\" echo-estimate \"$1\" 2>&1",
+                                         KERF_CLI_PATH, wav.getFullPathName()}));
+    const auto output = kerf.readAllProcessOutput();
+    INFO(output);
+    CHECK(kerf.getExitCode() == 1); // README: exit status 1, a message naming the problem
+    CHECK(output.contains("truncated or damaged"));
+}
