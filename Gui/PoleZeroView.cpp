@@ -23,10 +23,10 @@ juce::String hzText(double hz)
     return juce::String(hz, a >= 100.0 ? 1 : 2) + " Hz";
 }
 
-juce::String stageName(const dsp::StageSpec& s, int index)
+/// A stage's type and frequency (chain positions differ from the editor's slot numbers).
+juce::String stageName(const dsp::StageSpec& s)
 {
-    juce::String t =
-        juce::String(index + 1) + " " + juce::String(std::string(dsp::stageTypeName(s.type)));
+    juce::String t(std::string(dsp::stageTypeName(s.type)));
     if (s.type != dsp::StageType::comb && s.type != dsp::StageType::echoCancel)
         t << " " << hzText(s.freqHz);
     return t;
@@ -125,7 +125,7 @@ void PoleZeroView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz)
     stageBox.addItem("All stages", 1);
     for (int i = 0; i < chain.numStages; ++i)
         if (chain.stages[static_cast<std::size_t>(i)].enabled)
-            stageBox.addItem(stageName(chain.stages[static_cast<std::size_t>(i)], i), i + 2);
+            stageBox.addItem(stageName(chain.stages[static_cast<std::size_t>(i)]), i + 2);
     if (highlight >= 0 && stageBox.indexOfItemId(highlight + 2) < 0)
         highlight = -1;
     stageBox.setSelectedId(highlight + 2, juce::dontSendNotification);
@@ -200,8 +200,7 @@ void PoleZeroView::workerLoop()
             }
             if (!cached.roots.listed)
             {
-                result.model.notes.push_back(stageName(s, i) + ": " +
-                                             juce::String(cached.roots.note));
+                result.model.notes.push_back(stageName(s) + ": " + juce::String(cached.roots.note));
                 continue;
             }
             for (const auto& z : cached.roots.zeros)
@@ -355,13 +354,15 @@ juce::String PoleZeroView::readoutFor(const Mark& m) const
         t << " x" << m.multiplicity;
     const double r = std::abs(m.z);
     const double hz = std::arg(m.z) * sampleRate / (2.0 * std::numbers::pi);
-    t << ": r = " << juce::String(r, 6) << ", angle " << (r > 0.0 ? hzText(hz) : "-") << " (stage";
-    if (m.stages.size() > 1)
-        t << "s";
+    t << ": r = " << juce::String(r, 6) << ", angle " << (r > 0.0 ? hzText(hz) : "-") << " (";
     for (std::size_t i = 0; i < m.stages.size(); ++i)
-        t << (i == 0 ? " " : ", ") << (m.stages[i] + 1);
-    t << ")";
-    return t;
+    {
+        const int k = m.stages[i];
+        t << (i == 0 ? "" : ", ")
+          << (k >= 0 && k < chain.numStages ? stageName(chain.stages[static_cast<std::size_t>(k)])
+                                            : juce::String("stage"));
+    }
+    return t << ")";
 }
 
 void PoleZeroView::mouseMove(const juce::MouseEvent& e)

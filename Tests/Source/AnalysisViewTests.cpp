@@ -274,6 +274,7 @@ TEST_CASE("z-plane view: readout, unlisted stages, highlight, grouping tolerance
     INFO(text);
     CHECK(text.contains("r = 1.000000"));
     CHECK(text.contains("4.000 kHz"));
+    CHECK(text.contains("(notch 4.000 kHz)")); // the stage it comes from
     // Highlighting a stage dims the others (the notch's marks lose their exact colour).
     const int notchIndex = m->stages.at(0);
     view.setHighlightedStage(notchIndex + 1);
