@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <limits>
 
 namespace kerf
 {
@@ -235,7 +236,7 @@ void ImpulseView::buildColumns()
     {
         const double ua = timeForX(plot.getX() + c) * shownRate;
         const double ub = timeForX(plot.getX() + c + 1) * shownRate;
-        double lo = at(ua), hi = lo;
+        double lo = std::numeric_limits<double>::infinity(), hi = -lo;
         auto take = [&](double v)
         {
             if (std::isfinite(v))
@@ -244,10 +245,13 @@ void ImpulseView::buildColumns()
                 hi = std::max(hi, v);
             }
         };
+        take(at(ua));
         take(at(ub));
         for (int i = std::max(0, static_cast<int>(std::floor(ua)) + 1);
              i < n && static_cast<double>(i) < ub; ++i)
             take(h[static_cast<std::size_t>(i)]);
+        if (lo > hi)
+            lo = hi = 0.0; // nothing finite here (a runaway is silenced by the processor)
         const double m = std::max(std::abs(lo), std::abs(hi));
         cols[static_cast<std::size_t>(c)] = {
             lo, hi, m > 0.0 ? std::max(20.0 * std::log10(m), floorDb) : floorDb};

@@ -568,3 +568,34 @@ TEST_CASE("z-plane view: an echo inverse's roots, and what a degree-576 solve co
                 "(the editor's refresh returned after %.1f ms)\n",
                 poles, worstRadius, ms, static_cast<int>(denseMarks) - 1, denseMs, handOverMs);
 }
+
+TEST_CASE("display deck: its buttons switch between the three views", "[editor][zplane]")
+{
+    // Common practice: one view at a time, chosen by a row of radio buttons.
+    JuceGuard guard;
+    KerfProcessor p;
+    std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
+    auto& deck = kerfEditor(*editor).displayDeck();
+    auto& response = kerfEditor(*editor).responseView();
+    CHECK(deck.page() == DisplayDeck::Page::response);
+    CHECK(response.isVisible());
+    auto click = [&deck](const char* id)
+    {
+        auto* b = dynamic_cast<juce::Button*>(deck.findChildWithID(id));
+        REQUIRE(b != nullptr);
+        b->triggerClick(); // asynchronous: runs from the message loop
+        juce::MessageManager::getInstance()->runDispatchLoopUntil(50);
+    };
+    click("pageZPlane");
+    CHECK(deck.page() == DisplayDeck::Page::zPlane);
+    CHECK(deck.poleZeroView().isVisible());
+    CHECK_FALSE(response.isVisible());
+    CHECK_FALSE(deck.impulseView().isVisible());
+    click("pageImpulse");
+    CHECK(deck.page() == DisplayDeck::Page::impulse);
+    CHECK(deck.impulseView().isVisible());
+    CHECK_FALSE(deck.poleZeroView().isVisible());
+    click("pageResponse");
+    CHECK(deck.page() == DisplayDeck::Page::response);
+    CHECK(response.isVisible());
+}
