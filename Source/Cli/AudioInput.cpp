@@ -76,6 +76,16 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
                 ", channels " + juce::String(r.numChannels) + ")";
         return nullptr;
     }
+    // JUCE 7.0.5's WAV and AIFF readers copy 8, 16, 24 or 32-bit samples, through a
+    // 5760-byte buffer that must hold one frame: a 41-byte AIFF claiming 11800-bit samples
+    // made readSamples loop forever (found by fuzzing: Tests/fuzz/regressions/audio_input).
+    const auto bits = r.bitsPerSample;
+    if (input->detector_->armed && bits != 8 && bits != 16 && bits != 24 && bits != 32)
+    {
+        error = "input " + name + " is not a readable WAV, AIFF or FLAC file (" +
+                juce::String(bits) + "-bit samples)";
+        return nullptr;
+    }
     if (r.numChannels > static_cast<unsigned int>(kMaxChannels))
     {
         error = "input " + name + " has " + juce::String(r.numChannels) +
