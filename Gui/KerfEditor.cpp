@@ -8,6 +8,7 @@ namespace kerf
 KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcessor(p), controls(p)
 {
     addAndMakeVisible(display);
+    response.attachParameters(p.state());
     addAndMakeVisible(controls);
     protectionLabel.setText("ceiling acting", juce::dontSendNotification);
     protectionLabel.setColour(juce::Label::textColourId, juce::Colour(0xfff2a65a));

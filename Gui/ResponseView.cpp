@@ -126,6 +126,7 @@ ResponseView::ResponseView()
     pathBox.onChange = [this]
     { setChannelView(static_cast<dsp::ChannelView>(pathBox.getSelectedId() - 1)); };
     addAndMakeVisible(pathBox);
+    addChildComponent(handles);
     worker = std::thread([this] { workerLoop(); });
 }
 
@@ -150,7 +151,14 @@ void ResponseView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz,
     sampleRate = sampleRateHz;
     gainDb = outputGainDb;
     haveChain = true;
+    handles.repaint();
     evaluate();
+}
+
+void ResponseView::attachParameters(juce::AudioProcessorValueTreeState& state)
+{
+    handles.attach(state);
+    handles.setVisible(currentMode == Mode::magnitude);
 }
 
 void ResponseView::setMode(Mode newMode)
@@ -163,6 +171,7 @@ void ResponseView::setMode(Mode newMode)
                                               : delayButton;
     button.setToggleState(true, juce::dontSendNotification);
     rangeButton.setEnabled(newMode == Mode::magnitude);
+    handles.setVisible(handles.attached() && newMode == Mode::magnitude);
     evaluate();
 }
 
@@ -195,6 +204,7 @@ void ResponseView::setMagnitudeRangeDb(double halfRangeDb)
 void ResponseView::resized()
 {
     layoutControls();
+    handles.setBounds(getLocalBounds());
     evaluate();
 }
 
@@ -245,6 +255,12 @@ float ResponseView::yForDb(double db) const noexcept
 {
     const double t = (magnitudeHalfRange - db) / (2.0 * magnitudeHalfRange);
     return static_cast<float>(plot.getY() + t * plot.getHeight());
+}
+
+double ResponseView::dbForY(double y) const noexcept
+{
+    const double t = (y - plot.getY()) / std::max(1, plot.getHeight());
+    return magnitudeHalfRange - t * 2.0 * magnitudeHalfRange;
 }
 
 namespace

@@ -3,6 +3,7 @@
 // system function H(z) over a log-frequency axis, with each stage's own curve on demand.
 #include "Chain.h"
 #include "Response/SystemFunction.h"
+#include "SectionHandles.h"
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
@@ -76,6 +77,8 @@ public:
     float yForValue(double value) const noexcept;
     /// y of a magnitude in dB on the magnitude scale (whatever the mode).
     float yForDb(double db) const noexcept;
+    /// The magnitude in dB at a (fractional) y position: the inverse of yForDb.
+    double dbForY(double y) const noexcept;
     /// The current vertical range, in the mode's unit.
     double bottomValue() const noexcept { return rangeLow; }
     double topValue() const noexcept { return rangeHigh; }
@@ -89,6 +92,12 @@ public:
         double low = 0.0, high = 0.0;
     };
     const std::vector<Column>& columns() const noexcept { return total; }
+
+    // ---- Direct manipulation ---------------------------------------------------------------
+    /// Shows a handle per enabled section slot of `state` (magnitude view only) and lets the
+    /// mouse edit the slots' frequency, gain and Q through their parameters.
+    void attachParameters(juce::AudioProcessorValueTreeState& state);
+    SectionHandles& sectionHandles() noexcept { return handles; }
     /// Message thread: waits until the curve for the latest change has been evaluated and
     /// takes it (otherwise it arrives asynchronously). False on timeout. For tests and
     /// snapshots.
@@ -169,6 +178,7 @@ private:
     juce::TextButton magnitudeButton{"Magnitude"}, phaseButton{"Phase"}, delayButton{"Group delay"},
         stagesButton{"Stages"}, rangeButton{"+-24 dB"};
     juce::ComboBox pathBox;
+    SectionHandles handles{*this}; // over everything; takes the mouse inside the plot only
 };
 
 } // namespace kerf
