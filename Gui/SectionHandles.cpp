@@ -28,8 +28,16 @@ juce::String hzText(double hz)
 
 SectionHandles::SectionHandles(ResponseView& v) : view(v)
 {
-    setInterceptsMouseClicks(true, false);
+    setInterceptsMouseClicks(true, true); // the inline value field is a child
     setComponentID("sectionHandles");
+    setWantsKeyboardFocus(true);
+    setTitle("Section handles");
+    setHelpText("Tab selects a section; arrows step frequency and gain, plus and minus Q "
+                "(Shift: finer); Enter types a frequency, G a gain, Q a Q; Delete resets.");
+    valueField.setVisible(false);
+    valueField.setJustification(juce::Justification::centred);
+    valueField.setSelectAllWhenFocused(true);
+    addChildComponent(valueField);
 }
 
 SectionHandles::~SectionHandles()
@@ -130,12 +138,21 @@ void SectionHandles::paint(juce::Graphics& g)
         return;
     juce::Graphics::ScopedSaveState save(g);
     g.reduceClipRegion(view.plotArea().expanded(1));
-    const int lit = dragSlot >= 0 ? dragSlot : hovered;
+    const int chosen = selectedSlot();
+    const bool focused = hasKeyboardFocus(true);
+    // The selection's readout shows while the keyboard is here.
+    const int lit = dragSlot >= 0 ? dragSlot : hovered >= 0 ? hovered : focused ? chosen : -1;
     g.setFont(10.0f);
     for (const auto& h : handles())
     {
         const bool on = h.slot == lit;
         const auto c = h.position;
+        if (h.slot == chosen)
+        {
+            // The keyboard's selection: a ring around the handle, solid while focused.
+            g.setColour(kLit.withAlpha(focused ? 1.0f : 0.55f));
+            g.drawEllipse(c.x - 12.0f, c.y - 12.0f, 24.0f, 24.0f, 1.6f);
+        }
         juce::Path shape;
         if (h.hasGain)
         {
@@ -224,11 +241,14 @@ void SectionHandles::mouseDown(const juce::MouseEvent& e)
 {
     endGesture(); // a drag that lost its mouse-up
     dragSlot = -1;
+    if (isShowing())
+        grabKeyboardFocus(); // the keyboard steps follow a click on the plot
     const auto slot = slotAt(e.position);
     const auto h = slot ? handleFor(*slot) : std::nullopt;
     if (!h)
         return;
     dragSlot = h->slot;
+    select(h->slot);
     dragQ = e.mods.isAltDown();
     grabOffset = h->position - e.position;
     startQ = h->q;
@@ -275,16 +295,265 @@ void SectionHandles::mouseDoubleClick(const juce::MouseEvent& e)
     const auto slot = slotAt(e.position);
     if (!slot)
         return;
+    reset(*slot);
+}
+
+void SectionHandles::reset(int slot)
+{
     endGesture();
-    auto* freq = param(ids::slotFreq(*slot));
-    auto* gain = param(ids::slotGain(*slot));
-    auto* q = param(ids::slotQ(*slot));
+    auto* freq = param(ids::slotFreq(slot));
+    auto* gain = param(ids::slotGain(slot));
+    auto* q = param(ids::slotQ(slot));
     beginGesture({freq, gain, q});
     for (auto* p : {freq, gain, q})
         if (p != nullptr && p->getValue() != p->getDefaultValue())
             p->setValueNotifyingHost(p->getDefaultValue());
     endGesture();
+    describe();
     repaint();
+}
+
+void SectionHandles::step(int slot, double octaves, double db, double qFactor)
+{
+    const auto h = handleFor(slot);
+    if (!h || dragSlot >= 0)
+        return;
+    endGesture();
+    auto* freq = octaves != 0.0 ? param(ids::slotFreq(slot)) : nullptr;
+    auto* gain = db != 0.0 && h->hasGain ? param(ids::slotGain(slot)) : nullptr;
+    auto* q = qFactor != 1.0 ? param(ids::slotQ(slot)) : nullptr;
+    beginGesture({freq, gain, q});
+    set(freq, std::clamp(h->freqHz * std::exp2(octaves), kFreqMinHz, kFreqMaxHz));
+    set(gain, std::clamp(h->gainDb + db, kGainMinDb, kGainMaxDb));
+    set(q, std::clamp(h->q * qFactor, kQMin, kQMax));
+    endGesture();
+    describe();
+    repaint();
+}
+
+int SectionHandles::selectedSlot() const noexcept
+{
+    return selected >= 0 && handleFor(selected) ? selected : -1;
+}
+
+void SectionHandles::select(int slot)
+{
+    selected = handleFor(slot) ? slot : -1;
+    describe();
+    repaint();
+}
+
+void SectionHandles::describe()
+{
+    const int s = selectedSlot();
+    setDescription(s >= 0 ? readout(s) : juce::String());
+    if (auto* a = getAccessibilityHandler())
+        a->notifyAccessibilityEvent(juce::AccessibilityEvent::valueChanged);
+}
+
+std::unique_ptr<juce::AccessibilityHandler> SectionHandles::createAccessibilityHandler()
+{
+    return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::group);
+}
+
+bool SectionHandles::keyPressed(const juce::KeyPress& key)
+{
+    const auto all = handles();
+    if (all.empty())
+        return false;
+    const int code = key.getKeyCode();
+    const bool shift = key.getModifiers().isShiftDown();
+    if (key.getModifiers().isCommandDown() || key.getModifiers().isAltDown())
+        return false; // the editor's shortcuts (undo, redo)
+    if (code == juce::KeyPress::tabKey)
+    {
+        // Next (Shift: previous) enabled slot in slot order, wrapping around.
+        const int now = selectedSlot();
+        int next = shift ? all.back().slot : all.front().slot;
+        if (now >= 0)
+        {
+            const auto it = std::find_if(all.begin(), all.end(),
+                                         [now](const Handle& h) { return h.slot == now; });
+            const auto i = static_cast<int>(std::distance(all.begin(), it));
+            const int n = static_cast<int>(all.size());
+            next = all[static_cast<size_t>((i + (shift ? n - 1 : 1)) % n)].slot;
+        }
+        select(next);
+        return true;
+    }
+    const int s = selectedSlot();
+    if (s < 0)
+        return false;
+    const double octave = shift ? kFineOctaveStep : kOctaveStep;
+    const double db = shift ? kFineGainStepDb : kGainStepDb;
+    const auto ch = key.getTextCharacter();
+    if (code == juce::KeyPress::rightKey)
+        step(s, octave, 0.0, 1.0);
+    else if (code == juce::KeyPress::leftKey)
+        step(s, -octave, 0.0, 1.0);
+    else if (code == juce::KeyPress::upKey)
+        step(s, 0.0, db, 1.0);
+    else if (code == juce::KeyPress::downKey)
+        step(s, 0.0, -db, 1.0);
+    else if (ch == '+' || ch == '=' || code == juce::KeyPress::numberPadAdd)
+        step(s, 0.0, 0.0, kWheelQFactor);
+    else if (ch == '-' || ch == '_' || code == juce::KeyPress::numberPadSubtract)
+        step(s, 0.0, 0.0, 1.0 / kWheelQFactor);
+    else if (code == juce::KeyPress::deleteKey || code == juce::KeyPress::backspaceKey)
+        reset(s);
+    else if (code == juce::KeyPress::returnKey)
+        openField(Field::frequency);
+    else if (ch == 'g' || ch == 'G')
+        openField(Field::gain);
+    else if (ch == 'q' || ch == 'Q')
+        openField(Field::q);
+    else
+        return false;
+    return true;
+}
+
+void SectionHandles::focusGained(FocusChangeType)
+{
+    repaint();
+}
+
+void SectionHandles::focusLost(FocusChangeType)
+{
+    repaint();
+}
+
+bool SectionHandles::isNumberText(const juce::String& text)
+{
+    // The same units parseValueText (Parameters.cpp) drops, then a plain decimal number.
+    auto t = text.trim().toLowerCase().removeCharacters(" ");
+    for (const char* unit : {"hz", "db"})
+        if (t.endsWith(unit))
+            t = t.dropLastCharacters(2);
+    if (t.endsWith("k"))
+        t = t.dropLastCharacters(1);
+    if (t.startsWithChar('+') || t.startsWithChar('-'))
+        t = t.substring(1);
+    const int dot = t.indexOfChar('.');
+    const auto digits = t.removeCharacters(".");
+    return digits.isNotEmpty() && digits.containsOnly("0123456789") &&
+           (dot < 0 || t.lastIndexOfChar('.') == dot);
+}
+
+bool SectionHandles::openField(Field kind)
+{
+    const auto h = handleFor(selectedSlot());
+    if (!h || (kind == Field::gain && !h->hasGain) || dragSlot >= 0)
+        return false;
+    fieldSlot = h->slot;
+    fieldKind = kind;
+    auto* p = param(kind == Field::frequency ? ids::slotFreq(fieldSlot)
+                    : kind == Field::gain    ? ids::slotGain(fieldSlot)
+                                             : ids::slotQ(fieldSlot));
+    const juce::String name = kind == Field::frequency ? "frequency"
+                              : kind == Field::gain    ? "gain"
+                                                       : "Q";
+    valueField.setTitle("Section " + juce::String(fieldSlot + 1) + " " + name);
+    valueField.setTextToShowWhenEmpty(name, kRing.withAlpha(0.6f));
+    valueField.setText(kind == Field::q ? juce::String(h->q, 3) : p->getCurrentValueAsText(),
+                       false);
+    placeField();
+    valueField.setVisible(true);
+    valueField.selectAll();
+    if (valueField.isShowing())
+        valueField.grabKeyboardFocus();
+    return true;
+}
+
+juce::TextEditor* SectionHandles::field() noexcept
+{
+    return valueField.isVisible() ? &valueField : nullptr;
+}
+
+void SectionHandles::placeField()
+{
+    const auto h = handleFor(fieldSlot);
+    if (!h)
+        return;
+    const auto plot = view.plotArea();
+    const int w = 84, hgt = 20;
+    const int x = std::clamp(juce::roundToInt(h->position.x) - w / 2, plot.getX(),
+                             std::max(plot.getX(), plot.getRight() - w));
+    int y = juce::roundToInt(h->position.y) + 14;
+    if (y + hgt > plot.getBottom())
+        y = juce::roundToInt(h->position.y) - 14 - hgt;
+    valueField.setBounds(x, y, w, hgt);
+}
+
+void SectionHandles::resized()
+{
+    if (valueField.isVisible())
+        placeField();
+}
+
+void SectionHandles::cancelField()
+{
+    if (!valueField.isVisible())
+        return;
+    const bool hadFocus = valueField.hasKeyboardFocus(true);
+    valueField.setVisible(false);
+    fieldSlot = -1;
+    if (hadFocus && isShowing())
+        grabKeyboardFocus();
+    repaint();
+}
+
+void SectionHandles::commitField()
+{
+    if (!valueField.isVisible())
+        return;
+    const auto text = valueField.getText();
+    const int slot = fieldSlot;
+    const auto kind = fieldKind;
+    cancelField();
+    if (!handleFor(slot) || !isNumberText(text))
+        return; // text the parameter cannot read leaves the value as it is
+    auto* p = param(kind == Field::frequency ? ids::slotFreq(slot)
+                    : kind == Field::gain    ? ids::slotGain(slot)
+                                             : ids::slotQ(slot));
+    if (p == nullptr)
+        return;
+    // The parameter's own text conversion ("2.5k", "-3 dB", "120 Hz"), clamped by its range.
+    const float normalised = p->getValueForText(text);
+    endGesture();
+    beginGesture({p});
+    if (normalised != p->getValue())
+        p->setValueNotifyingHost(normalised);
+    endGesture();
+    describe();
+    repaint();
+}
+
+bool SectionHandles::ValueField::keyPressed(const juce::KeyPress& key)
+{
+    // Handled here, not through onReturnKey, which JUCE delivers later by a posted message.
+    if (key.getKeyCode() == juce::KeyPress::returnKey)
+    {
+        owner.commitField();
+        return true;
+    }
+    if (key.getKeyCode() == juce::KeyPress::escapeKey)
+    {
+        owner.cancelField();
+        return true;
+    }
+    return juce::TextEditor::keyPressed(key);
+}
+
+void SectionHandles::ValueField::focusLost(FocusChangeType cause)
+{
+    juce::TextEditor::focusLost(cause);
+    if (isVisible())
+        juce::MessageManager::callAsync(
+            [safe = juce::Component::SafePointer<ValueField>(this)]
+            {
+                if (safe != nullptr && !safe->hasKeyboardFocus(true))
+                    safe->owner.cancelField(); // clicked elsewhere: nothing typed applies
+            });
 }
 
 void SectionHandles::mouseWheelMove(const juce::MouseEvent& e, const juce::MouseWheelDetails& w)

@@ -1,6 +1,7 @@
 #pragma once
 // Direct manipulation of the section slots on the response display: one handle per enabled
-// slot, dragged for frequency and gain, wheel or Alt-drag for Q, double-click to reset.
+// slot, dragged for frequency and gain, wheel or Alt-drag for Q, double-click to reset; from
+// the keyboard, Tab selects, arrows and +/- step, Enter/G/Q type a value, Delete resets.
 #include <juce_audio_processors/juce_audio_processors.h>
 #include <juce_gui_basics/juce_gui_basics.h>
 
@@ -24,6 +25,18 @@ public:
     static constexpr double kPixelsPerQDoubling = 60.0;
     /// Grab radius of a handle, px.
     static constexpr float kGrabRadius = 9.0f;
+    /// Keyboard steps: Left/Right frequency by an octave fraction (Shift: the fine one),
+    /// Up/Down gain in dB (Shift: fine), +/- Q by kWheelQFactor.
+    static constexpr double kOctaveStep = 1.0 / 12.0, kFineOctaveStep = 1.0 / 48.0;
+    static constexpr double kGainStepDb = 0.5, kFineGainStepDb = 0.1;
+
+    /// The field a typed value goes to.
+    enum class Field
+    {
+        frequency,
+        gain,
+        q
+    };
 
     explicit SectionHandles(ResponseView& view);
     ~SectionHandles() override;
@@ -52,6 +65,26 @@ public:
     /// True for the slot types whose handles carry a gain.
     static bool typeHasGain(int typeIndex) noexcept;
 
+    /// The slot selected for the keyboard, or -1.
+    int selectedSlot() const noexcept;
+    void select(int slot);
+    /// Opens the inline text field for the selected slot (false if none, or no gain there).
+    bool openField(Field field);
+    /// The open text field, or nullptr.
+    juce::TextEditor* field() noexcept;
+    /// Applies the open field's text (one undo step; text the parameter cannot read changes
+    /// nothing) or closes it unchanged.
+    void commitField();
+    void cancelField();
+    /// True if the parameter's text conversion reads `text` as a number (with an optional
+    /// "k" and "Hz"/"dB"): "2.5k", "-3 dB", "120 Hz", "1.25 kHz", "0.7".
+    static bool isNumberText(const juce::String& text);
+
+    bool keyPressed(const juce::KeyPress& key) override;
+    void focusGained(FocusChangeType cause) override;
+    void focusLost(FocusChangeType cause) override;
+    void resized() override;
+    std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;
     bool hitTest(int x, int y) override;
     void paint(juce::Graphics& g) override;
     void mouseMove(const juce::MouseEvent& e) override;
@@ -69,6 +102,22 @@ private:
     void set(juce::RangedAudioParameter* p, double value);
     void beginGesture(std::initializer_list<juce::RangedAudioParameter*> ps);
     void endGesture();
+    /// One gesture: frequency times 2^octaves, gain plus dB, Q times factor (clamped).
+    void step(int slot, double octaves, double db, double qFactor);
+    void reset(int slot);
+    void describe();
+    void placeField();
+
+    class ValueField : public juce::TextEditor
+    {
+    public:
+        explicit ValueField(SectionHandles& o) : owner(o) {}
+        bool keyPressed(const juce::KeyPress& key) override;
+        void focusLost(FocusChangeType cause) override;
+
+    private:
+        SectionHandles& owner;
+    };
 
     ResponseView& view;
     juce::AudioProcessorValueTreeState* params = nullptr;
@@ -79,6 +128,10 @@ private:
     juce::Point<float> grabOffset; // handle centre minus the mouse-down point
     double startQ = 1.0;
     std::vector<juce::RangedAudioParameter*> inGesture;
+    int selected = -1;
+    ValueField valueField{*this};
+    int fieldSlot = -1;
+    Field fieldKind = Field::frequency;
 
     JUCE_DECLARE_NON_COPYABLE(SectionHandles)
 };

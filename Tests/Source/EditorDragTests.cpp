@@ -273,3 +273,201 @@ TEST_CASE("editor: a gain-less handle moves along frequency only; hover shows a 
     rig.view().setMode(ResponseView::Mode::magnitude);
     CHECK(h.isVisible());
 }
+
+// ---- Keyboard: selection, steps and typed values ------------------------------------------
+
+namespace
+{
+const char* kThreePeaking = R"({"format": "kerf-chain", "version": 1, "stages": [
+    {"type": "peaking", "freq_hz": 100, "gain_db": 2, "q": 1},
+    {"type": "peaking", "freq_hz": 1000, "gain_db": 3, "q": 1.5},
+    {"type": "peaking", "freq_hz": 8000, "gain_db": -4, "q": 2}]})";
+
+bool press(SectionHandles& h, int code, juce::ModifierKeys mods = {}, juce::juce_wchar ch = 0)
+{
+    return h.keyPressed(juce::KeyPress(code, mods, ch));
+}
+const juce::ModifierKeys kShift(juce::ModifierKeys::shiftModifier);
+
+/// Opens the field with `key`, types `text` and presses `finish` in the field.
+void typeInto(SectionHandles& h, int key, juce::juce_wchar ch, const juce::String& text,
+              int finish = juce::KeyPress::returnKey)
+{
+    REQUIRE(press(h, key, {}, ch));
+    auto* f = h.field();
+    REQUIRE(f != nullptr);
+    f->setText(text, false);
+    CHECK(f->keyPressed(juce::KeyPress(finish)));
+    CHECK(h.field() == nullptr);
+}
+
+int undoSteps(KerfProcessor& p)
+{
+    int n = 0;
+    while (p.history().canUndo() && p.history().undo())
+        ++n;
+    return n;
+}
+} // namespace
+
+TEST_CASE("editor keys: Tab and Shift+Tab move the selection in slot order", "[editor][keys]")
+{
+    JuceGuard guard;
+    Rig rig(kThreePeaking);
+    auto& h = rig.handles();
+    CHECK(h.getWantsKeyboardFocus());
+    CHECK(h.getTitle() == "Section handles");
+    // Switch the middle slot off: the selection skips it.
+    auto* on = rig.processor.state().getParameter(ids::slotOn(1));
+    on->setValueNotifyingHost(0.0f);
+    CHECK(h.selectedSlot() == -1);
+    CHECK(press(h, juce::KeyPress::tabKey));
+    CHECK(h.selectedSlot() == 0);
+    CHECK(h.getDescription().startsWith("Section 1"));
+    CHECK(press(h, juce::KeyPress::tabKey));
+    CHECK(h.selectedSlot() == 2);
+    CHECK(press(h, juce::KeyPress::tabKey));
+    CHECK(h.selectedSlot() == 0); // wraps around
+    CHECK(press(h, juce::KeyPress::tabKey, kShift));
+    CHECK(h.selectedSlot() == 2);
+    on->setValueNotifyingHost(1.0f);
+    CHECK(press(h, juce::KeyPress::tabKey, kShift));
+    CHECK(h.selectedSlot() == 1);
+    CHECK(press(h, juce::KeyPress::tabKey, kShift));
+    CHECK(h.selectedSlot() == 0);
+    // Keys that are not ours (Ctrl+Z for the editor's undo) pass on.
+    rig.processor.history().clear();
+    CHECK_FALSE(press(h, 'z', juce::ModifierKeys::commandModifier, 'z'));
+    CHECK_FALSE(rig.processor.history().canUndo());
+}
+
+TEST_CASE("editor keys: arrows step frequency by 1/12 octave and gain by 0.5 dB, one undo "
+          "step each",
+          "[editor][keys]")
+{
+    JuceGuard guard;
+    Rig rig(kThreePeaking);
+    auto& h = rig.handles();
+    h.select(1);
+    REQUIRE(h.selectedSlot() == 1);
+    const float f0 = rig.value(ids::slotFreq(1)), g0 = rig.value(ids::slotGain(1)),
+                q0 = rig.value(ids::slotQ(1));
+    REQUIRE(f0 == 1000.0f);
+    // A twelfth-octave (semitone) step is a frequency ratio of 2^(1/12) (definition of the
+    // equal-tempered semitone; common practice). Frequencies are stored to 5 significant
+    // digits (Parameters.cpp), so within 1e-4 relative; a 1/13 octave step would be 0.4 % off.
+    CHECK(press(h, juce::KeyPress::rightKey));
+    const double semitone = std::pow(2.0, 1.0 / 12.0);
+    CHECK(rig.value(ids::slotFreq(1)) == Approx(1000.0 * semitone).epsilon(1e-4));
+    CHECK(rig.value(ids::slotFreq(1)) != Approx(1000.0 * std::pow(2.0, 1.0 / 13.0)).epsilon(1e-4));
+    CHECK(press(h, juce::KeyPress::rightKey, kShift)); // fine: 1/48 octave
+    CHECK(rig.value(ids::slotFreq(1)) ==
+          Approx(1000.0 * semitone * std::pow(2.0, 1.0 / 48.0)).epsilon(1e-4));
+    CHECK(press(h, juce::KeyPress::leftKey));
+    CHECK(rig.value(ids::slotFreq(1)) == Approx(1000.0 * std::pow(2.0, 1.0 / 48.0)).epsilon(1e-4));
+    // Up adds exactly 0.5 dB (gain is stored on a 0.01 dB grid; 3.5 is on it).
+    CHECK(press(h, juce::KeyPress::upKey));
+    CHECK(rig.value(ids::slotGain(1)) == 3.5f);
+    CHECK(press(h, juce::KeyPress::downKey, kShift)); // fine: 0.1 dB
+    CHECK(rig.value(ids::slotGain(1)) == Approx(3.4).margin(1e-5));
+    // + multiplies Q by 2^(1/4), - divides (the wheel's factor; Q stored to 4 digits).
+    CHECK(press(h, '+', kShift, '+'));
+    CHECK(rig.value(ids::slotQ(1)) == Approx(1.5 * std::pow(2.0, 0.25)).epsilon(5e-4));
+    CHECK(press(h, '-', {}, '-'));
+    CHECK(rig.value(ids::slotQ(1)) == Approx(1.5).epsilon(5e-4));
+    // The other slots are untouched.
+    CHECK(rig.value(ids::slotFreq(0)) == 100.0f);
+    CHECK(rig.value(ids::slotFreq(2)) == 8000.0f);
+    // Seven keys, seven undo steps, back to exactly the old values.
+    CHECK(undoSteps(rig.processor) == 7);
+    CHECK(rig.value(ids::slotFreq(1)) == f0);
+    CHECK(rig.value(ids::slotGain(1)) == g0);
+    CHECK(rig.value(ids::slotQ(1)) == q0);
+}
+
+TEST_CASE("editor keys: steps clamp at the range ends; Delete resets; gain-less handles keep "
+          "their gain",
+          "[editor][keys]")
+{
+    JuceGuard guard;
+    Rig rig(kPeaking);
+    auto& h = rig.handles();
+    CHECK(press(h, juce::KeyPress::tabKey));
+    REQUIRE(h.selectedSlot() == 0);
+    // Limits.h: gain -30 .. +30 dB, frequency 10 Hz .. 30 kHz.
+    for (int i = 0; i < 70; ++i)
+        press(h, juce::KeyPress::upKey);
+    CHECK(rig.value(ids::slotGain(0)) == static_cast<float>(dsp::limits::kGainMaxDb));
+    for (int i = 0; i < 130; ++i)
+        press(h, juce::KeyPress::downKey);
+    CHECK(rig.value(ids::slotGain(0)) == static_cast<float>(dsp::limits::kGainMinDb));
+    for (int i = 0; i < 12 * 6; ++i) // six octaves up from 1 kHz passes 30 kHz
+        press(h, juce::KeyPress::rightKey);
+    CHECK(rig.value(ids::slotFreq(0)) == static_cast<float>(dsp::limits::kFreqMaxHz));
+    for (int i = 0; i < 12 * 12; ++i)
+        press(h, juce::KeyPress::leftKey);
+    CHECK(rig.value(ids::slotFreq(0)) == static_cast<float>(dsp::limits::kFreqMinHz));
+    // Delete: the defaults (Parameters.cpp: slot 0 at 40 Hz, 0 dB, Q 1), one undo step.
+    rig.processor.history().clear();
+    CHECK(press(h, juce::KeyPress::deleteKey));
+    CHECK(rig.value(ids::slotFreq(0)) == Approx(40.0).epsilon(1e-6));
+    CHECK(rig.value(ids::slotGain(0)) == 0.0f);
+    CHECK(rig.value(ids::slotQ(0)) == 1.0f);
+    CHECK(undoSteps(rig.processor) == 1);
+    CHECK(rig.value(ids::slotFreq(0)) == static_cast<float>(dsp::limits::kFreqMinHz));
+
+    Rig hp(kHighPass);
+    auto& k = hp.handles();
+    auto* gainParam = hp.processor.state().getParameter(ids::slotGain(0));
+    gainParam->setValueNotifyingHost(gainParam->convertTo0to1(5.0f));
+    hp.processor.history().clear();
+    k.select(0);
+    press(k, juce::KeyPress::upKey);
+    CHECK(hp.value(ids::slotGain(0)) == 5.0f);
+    CHECK_FALSE(hp.processor.history().canUndo());
+    CHECK_FALSE(k.openField(SectionHandles::Field::gain)); // nothing to type there
+    CHECK(k.field() == nullptr);
+}
+
+TEST_CASE("editor keys: typed values go through the parameter's text forms; Escape cancels",
+          "[editor][keys]")
+{
+    JuceGuard guard;
+    Rig rig(kThreePeaking);
+    auto& h = rig.handles();
+    h.select(1);
+    // Enter types a frequency, G a gain, Q a Q; each value applied is one undo step.
+    typeInto(h, juce::KeyPress::returnKey, 0, "2.5k");
+    CHECK(rig.value(ids::slotFreq(1)) == 2500.0f);
+    typeInto(h, 'g', 'g', "-3 dB");
+    CHECK(rig.value(ids::slotGain(1)) == -3.0f);
+    typeInto(h, juce::KeyPress::returnKey, 0, "1.25 kHz");
+    CHECK(rig.value(ids::slotFreq(1)) == 1250.0f);
+    typeInto(h, juce::KeyPress::returnKey, 0, "120 Hz");
+    CHECK(rig.value(ids::slotFreq(1)) == 120.0f);
+    typeInto(h, 'q', 'q', "0.7");
+    CHECK(rig.value(ids::slotQ(1)) == 0.7f);
+    CHECK(undoSteps(rig.processor) == 5);
+    CHECK(rig.value(ids::slotFreq(1)) == 1000.0f);
+    CHECK(rig.value(ids::slotGain(1)) == 3.0f);
+    CHECK(rig.value(ids::slotQ(1)) == 1.5f);
+    // Text the parameter cannot read changes nothing (its converter would read "abc" as 0).
+    typeInto(h, juce::KeyPress::returnKey, 0, "abc");
+    typeInto(h, 'g', 'g', "");
+    typeInto(h, 'q', 'q', "1.2.3");
+    CHECK(rig.value(ids::slotFreq(1)) == 1000.0f);
+    CHECK(rig.value(ids::slotGain(1)) == 3.0f);
+    CHECK(rig.value(ids::slotQ(1)) == 1.5f);
+    CHECK_FALSE(rig.processor.history().canUndo());
+    // Escape closes the field, nothing applied.
+    typeInto(h, juce::KeyPress::returnKey, 0, "5k", juce::KeyPress::escapeKey);
+    CHECK(rig.value(ids::slotFreq(1)) == 1000.0f);
+    CHECK_FALSE(rig.processor.history().canUndo());
+    // The field opens with the current value in the parameter's own text.
+    REQUIRE(press(h, juce::KeyPress::returnKey));
+    REQUIRE(h.field() != nullptr);
+    CHECK(h.field()->getText() == "1.00 kHz");
+    h.cancelField();
+    CHECK(SectionHandles::isNumberText("+3db"));
+    CHECK_FALSE(SectionHandles::isNumberText("k"));
+}
