@@ -109,6 +109,8 @@ TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[
                                          "ulimit -v 4000000; exec \"$0\" echo-estimate \"$1\" 2>&1",
                                          KERF_CLI_PATH, wav.getFullPathName()}));
     const auto output = kerf.readAllProcessOutput();
+    // The pipe closes before the process is reaped: wait, or getExitCode() may still read 0.
+    REQUIRE(kerf.waitForProcessToFinish(60000));
     INFO(output);
     CHECK(kerf.getExitCode() == 1); // README: exit status 1, a message naming the problem
     CHECK(output.contains("truncated or damaged"));
