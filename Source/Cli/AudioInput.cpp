@@ -86,6 +86,19 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
                 juce::String(bits) + "-bit samples)";
         return nullptr;
     }
+    // A FLAC frame takes at least 8 bytes (a frame header of at least 6 with its CRC-8, a
+    // subframe header, the CRC-16 footer: FLAC format, IETF RFC 9639, section 9; from
+    // memory) and holds at most 65535 samples per channel, so a header that claims more than
+    // the file's size allows is damaged; JUCE's reader would decode silence for all of it.
+    const juce::int64 bytes = input->detector_->getTotalLength();
+    if (formatName.containsIgnoreCase("FLAC") && bytes > 0 &&
+        r.lengthInSamples > (bytes / 8 + 1) * 65535)
+    {
+        error = "input " + name + " is damaged: its header claims " +
+                juce::String(r.lengthInSamples) + " samples, more than " + juce::String(bytes) +
+                " bytes of FLAC can hold";
+        return nullptr;
+    }
     if (r.numChannels > static_cast<unsigned int>(kMaxChannels))
     {
         error = "input " + name + " has " + juce::String(r.numChannels) +

@@ -2,6 +2,7 @@
 // that once crashed or broke a promise) through the same entry points as the libFuzzer
 // targets (Tests/fuzz/FuzzChecks.h), in the normal build, so a regression shows without
 // clang. Common practice (libFuzzer's documentation): crash inputs become regression tests.
+#include "AudioInput.h"
 #include "ChainFile.h"
 #include "FuzzChecks.h"
 
@@ -114,4 +115,26 @@ TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[
     INFO(output);
     CHECK(kerf.getExitCode() == 1); // README: exit status 1, a message naming the problem
     CHECK(output.contains("truncated or damaged"));
+}
+
+TEST_CASE("fuzz regression: a FLAC header claiming more samples than the file can hold",
+          "[fuzz][cli]")
+{
+    // A 670-byte FLAC (256 samples) whose STREAMINFO claims 2^36 - 1: JUCE's reader decodes
+    // silence for every claimed sample, so render would write hours of it. FLAC frames take
+    // at least 8 bytes and hold at most 65535 samples (IETF RFC 9639, section 9; from memory).
+    const auto flac = juce::File(KERF_SOURCE_DIR)
+                          .getChildFile("Tests/fuzz/regressions/audio_input")
+                          .getChildFile("flac-header-claims-68g-samples.flac");
+    REQUIRE(flac.existsAsFile());
+    juce::String error;
+    CHECK(kerf::cli::AudioInput::open(flac, error) == nullptr);
+    CHECK(error.contains("damaged"));
+    // The same file with its true length (the seed it was made from) still opens.
+    const auto seed =
+        juce::File(KERF_SOURCE_DIR).getChildFile("Tests/fuzz/corpus/audio_input/mono-24bit.flac");
+    juce::String seedError;
+    const auto ok = kerf::cli::AudioInput::open(seed, seedError);
+    REQUIRE(ok != nullptr);
+    CHECK(ok->reader().lengthInSamples == 256);
 }
