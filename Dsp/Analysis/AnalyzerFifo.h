@@ -39,7 +39,8 @@ public:
         const std::uint64_t w = writeIndex.load(std::memory_order_relaxed);
         const std::uint64_t r = readIndex.load(std::memory_order_acquire);
         const std::uint64_t space = mask + 1 - (w - r);
-        const int count = static_cast<int>(std::min<std::uint64_t>(space, n > 0 ? n : 0));
+        const int count = static_cast<int>(
+            std::min<std::uint64_t>(space, static_cast<std::uint64_t>(n > 0 ? n : 0)));
         for (int i = 0; i < count; ++i)
         {
             const auto at = static_cast<std::size_t>((w + static_cast<std::uint64_t>(i)) & mask);
@@ -72,8 +73,8 @@ public:
     {
         const std::uint64_t r = readIndex.load(std::memory_order_relaxed);
         const std::uint64_t w = writeIndex.load(std::memory_order_acquire);
-        const int count =
-            static_cast<int>(std::min<std::uint64_t>(w - r, maxPairs > 0 ? maxPairs : 0));
+        const int count = static_cast<int>(std::min<std::uint64_t>(
+            w - r, static_cast<std::uint64_t>(maxPairs > 0 ? maxPairs : 0)));
         for (int i = 0; i < count; ++i)
         {
             const auto at = static_cast<std::size_t>((r + static_cast<std::uint64_t>(i)) & mask);
