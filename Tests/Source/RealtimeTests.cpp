@@ -1,63 +1,15 @@
 // Realtime safety: the audio callback never allocates. The test binary replaces the global
-// allocation functions with counting ones that complain while a block is being processed.
+// allocation functions with counting ones (Tests/Dsp/AllocationHook.cpp, shared with the DSP
+// tests) that count while a block is being processed.
 #include "ChainFile.h"
+#include "Dsp/AllocationHook.h"
 #include "LiveAnalyzer.h"
 #include "PluginProcessor.h"
 
 #include <catch2/catch.hpp>
 
-#include <atomic>
 #include <cmath>
-#include <cstdlib>
-#include <new>
 #include <random>
-
-namespace
-{
-thread_local bool inAudioCallback = false;
-std::atomic<int> allocationsInCallback{0};
-
-void* countedAlloc(std::size_t n)
-{
-    if (inAudioCallback)
-        allocationsInCallback.fetch_add(1);
-    if (void* p = std::malloc(n == 0 ? 1 : n))
-        return p;
-    throw std::bad_alloc();
-}
-
-void countedFree(void* p) noexcept
-{
-    if (inAudioCallback && p != nullptr)
-        allocationsInCallback.fetch_add(1);
-    std::free(p);
-}
-} // namespace
-
-void* operator new(std::size_t n)
-{
-    return countedAlloc(n);
-}
-void* operator new[](std::size_t n)
-{
-    return countedAlloc(n);
-}
-void operator delete(void* p) noexcept
-{
-    countedFree(p);
-}
-void operator delete[](void* p) noexcept
-{
-    countedFree(p);
-}
-void operator delete(void* p, std::size_t) noexcept
-{
-    countedFree(p);
-}
-void operator delete[](void* p, std::size_t) noexcept
-{
-    countedFree(p);
-}
 
 TEST_CASE("realtime: processing with changing parameters never allocates", "[plugin]")
 {
@@ -92,11 +44,11 @@ TEST_CASE("realtime: processing with changing parameters never allocates", "[plu
         for (int ch = 0; ch < 2; ++ch)
             for (int i = 0; i < 256; ++i)
                 buffer.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
-        inAudioCallback = true;
+        kerf::allochook::counting = true;
         p.processBlock(buffer, midi);
-        inAudioCallback = false;
+        kerf::allochook::counting = false;
     }
-    CHECK(allocationsInCallback.load() == 0);
+    CHECK(kerf::allochook::count() == 0);
     CHECK(p.echoCapture().progress() > 0.0f); // it did record
 }
 
@@ -167,14 +119,14 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
         for (int ch = 0; ch < 2; ++ch)
             for (int i = 0; i < n; ++i)
                 view.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
-        inAudioCallback = true;
+        kerf::allochook::counting = true;
         p.processBlock(view, midi);
-        inAudioCallback = false;
+        kerf::allochook::counting = false;
         for (int ch = 0; ch < 2; ++ch)
             for (int i = 0; i < n; ++i)
                 finite = finite && std::isfinite(view.getSample(ch, i));
     }
-    CHECK(allocationsInCallback.load() == 0);
+    CHECK(kerf::allochook::count() == 0);
     CHECK(finite);
 }
 
@@ -205,16 +157,16 @@ TEST_CASE("realtime: the live analyzer's feed never allocates, its thread draini
         for (int ch = 0; ch < 2; ++ch)
             for (int i = 0; i < 256; ++i)
                 buffer.setSample(ch, i, u(rng));
-        inAudioCallback = true;
+        kerf::allochook::counting = true;
         p.processBlock(buffer, midi);
-        inAudioCallback = false;
+        kerf::allochook::counting = false;
         if (block % 8 == 0)
         {
             snapshots += live.update() ? 1 : 0;
             juce::Thread::sleep(1); // let the analysis thread run
         }
     }
-    CHECK(allocationsInCallback.load() == 0);
+    CHECK(kerf::allochook::count() == 0);
     // Everything was offered: taken, or dropped and counted when the thread fell behind.
     CHECK(p.analyzerFifo().pushed() + p.analyzerFifo().dropped() == 600u * 256u);
     live.setEnabled(false);
