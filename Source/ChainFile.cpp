@@ -356,13 +356,15 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
 /// JUCE 7.0.5's JSON parser reads the whole-number part of every number into a 64-bit
 /// integer with no overflow check (juce_JSON.cpp, JSONParser::parseNumber): 19 or more
 /// digits overflow, which is undefined behaviour and in practice wraps (2^64 + 1 would read
-/// as 1). No chain-file field needs such a number, so it is refused before JUCE parses.
-/// Found by fuzzing (Tests/fuzz/regressions/chain_file). Returns an error or nothing.
+/// as 1). Its exponent goes through CharacterFunctions::readDoubleValue, which adds up the
+/// exponent's significant digits in an int, again unchecked: ten or more overflow. No
+/// chain-file field needs such a number, so both are refused before JUCE parses. Found by
+/// fuzzing (Tests/fuzz/regressions/chain_file). Returns an error or nothing.
 juce::String overlongNumberError(const juce::String& text)
 {
     juce::juce_wchar quote = 0, prev = 0, prev2 = 0, beforeRun = 0, beforeSign = 0;
     bool escaped = false;
-    int line = 1, run = 0;
+    int line = 1, run = 0, exponentDigits = 0;
     for (auto p = text.getCharPointer(); !p.isEmpty();)
     {
         const auto c = p.getAndAdvance();
@@ -393,9 +395,12 @@ juce::String overlongNumberError(const juce::String& text)
             if (run == 19 && !fraction && !exponent)
                 return "line " + juce::String(line) +
                        ": a number with 19 or more digits before its decimal point";
+            if (exponent && (c != '0' || exponentDigits > 0) && ++exponentDigits == 10)
+                return "line " + juce::String(line) +
+                       ": a number whose exponent has 10 or more digits";
         }
         if (c < '0' || c > '9')
-            run = 0;
+            run = exponentDigits = 0;
         prev2 = prev;
         prev = c;
     }

@@ -1,6 +1,7 @@
 #include "Parameters.h"
 
 #include "Limits.h"
+#include "NumberText.h"
 
 #include <cmath>
 #include <vector>
@@ -28,7 +29,7 @@ float parseValueText(const juce::String& text)
         scale = 1000.0;
         t = t.dropLastCharacters(1);
     }
-    return static_cast<float>(t.getDoubleValue() * scale);
+    return static_cast<float>(readNumber(t) * scale);
 }
 
 juce::String freqText(float v, int)
@@ -214,13 +215,14 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
         echo->addChild(std::make_unique<juce::AudioParameterInt>(
             juce::ParameterID{ids::echoTerms, kParameterVersion}, "Echo cancel series terms", 1,
             dsp::kMaxEchoSeriesTerms, 4));
-        const auto msAttr = AudioParameterFloatAttributes()
-                                .withLabel("ms")
-                                .withStringFromValueFunction([](float v, int)
-                                                             { return juce::String(v, 2) + " ms"; })
-                                .withValueFromStringFunction(
-                                    [](const juce::String& t)
-                                    { return t.trim().removeCharacters(" ms").getFloatValue(); });
+        const auto msAttr =
+            AudioParameterFloatAttributes()
+                .withLabel("ms")
+                .withStringFromValueFunction([](float v, int)
+                                             { return juce::String(v, 2) + " ms"; })
+                .withValueFromStringFunction(
+                    [](const juce::String& t)
+                    { return static_cast<float>(readNumber(t.trim().removeCharacters(" ms"))); });
         for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
         {
             const juce::String name = "Echo reflection " + juce::String(k + 1);
@@ -293,7 +295,7 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
             .withStringFromValueFunction([](float v, int) { return juce::String(v, 1) + " ms"; })
             .withValueFromStringFunction(
                 [](const juce::String& t)
-                { return t.trim().removeCharacters(" ms").getFloatValue(); })));
+                { return static_cast<float>(readNumber(t.trim().removeCharacters(" ms"))); })));
     layout.add(std::make_unique<juce::AudioParameterBool>(
         juce::ParameterID{ids::bypass, kParameterVersionBypass}, "Bypass", false));
     return layout;

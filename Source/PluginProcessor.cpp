@@ -2,6 +2,7 @@
 
 #include "FactoryPresets.h"
 #include "KerfEditor.h"
+#include "NumberText.h"
 #include "Response/SystemFunction.h"
 
 namespace kerf
@@ -15,6 +16,25 @@ const juce::Identifier kSlotsTag{"CompareSlots"};
 const juce::Identifier kSlotTag{"Slot"};
 const juce::Identifier kActiveAttr{"active"};
 const juce::Identifier kSlotNameAttr{"name"};
+
+/// Names the first attribute of `root` (or of any element inside it) that JUCE cannot read
+/// as a number without overflowing (NumberText.h), or nothing. Walked without recursion,
+/// however deep the nesting.
+juce::String overflowingNumberAttribute(const juce::XmlElement& root)
+{
+    std::vector<const juce::XmlElement*> pending{&root};
+    while (!pending.empty())
+    {
+        const auto* e = pending.back();
+        pending.pop_back();
+        for (int i = 0; i < e->getNumAttributes(); ++i)
+            if (overflowsJuceNumberReader(e->getAttributeValue(i)))
+                return e->getTagName() + "." + e->getAttributeName(i);
+        for (const auto* child : e->getChildIterator())
+            pending.push_back(child);
+    }
+    return {};
+}
 } // namespace
 
 KerfProcessor::KerfProcessor()
@@ -514,7 +534,8 @@ void KerfProcessor::restoreSlots(const juce::XmlElement& state)
             float v = params[i]->getDefaultValue();
             if (ranged != nullptr)
                 if (const auto* e = slotXml->getChildByAttribute("id", ranged->getParameterID()))
-                    v = ranged->convertTo0to1(static_cast<float>(e->getDoubleAttribute("value")));
+                    v = ranged->convertTo0to1(
+                        static_cast<float>(readNumber(e->getStringAttribute("value"))));
             values[static_cast<std::size_t>(i)] = v;
         }
         read[name == "A" ? 0 : 1] = std::move(values);
@@ -541,6 +562,15 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {
         stateProblem = "the saved state is not Kerf state; parameters reset to defaults";
+        juce::Logger::writeToLog("Kerf: " + stateProblem);
+        resetToDefaults();
+        return;
+    }
+    if (const auto where = overflowingNumberAttribute(*xml); where.isNotEmpty())
+    {
+        stateProblem = "the saved state is damaged (" + where +
+                       " holds a number with an exponent of 10 or more digits); parameters "
+                       "reset to defaults";
         juce::Logger::writeToLog("Kerf: " + stateProblem);
         resetToDefaults();
         return;

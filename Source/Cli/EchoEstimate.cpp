@@ -4,6 +4,7 @@
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
+#include "NumberText.h"
 #include "SafeOutput.h"
 
 #include <cstdio>
@@ -42,7 +43,7 @@ bool parseNumber(const juce::String& text, double& out)
 {
     if (text.isEmpty() || !text.containsOnly("0123456789.eE+-"))
         return false;
-    out = text.getDoubleValue();
+    out = readNumber(text);
     return true;
 }
 } // namespace

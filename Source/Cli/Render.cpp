@@ -2,6 +2,7 @@
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "Commands.h"
+#include "NumberText.h"
 #include "SafeOutput.h"
 
 #include <juce_audio_formats/juce_audio_formats.h>
@@ -95,7 +96,7 @@ int runRender(Args args)
     double glideMs = dsp::kDefaultGlideMs;
     if (glideText.isNotEmpty())
     {
-        glideMs = glideText.getDoubleValue();
+        glideMs = readNumber(glideText);
         if (!glideText.containsOnly("0123456789.") || glideMs < 0.0 || glideMs > dsp::kMaxGlideMs)
         {
             printError("--glide must be a time in ms from 0 to 1000, not '" + glideText + "'");
@@ -114,7 +115,7 @@ int runRender(Args args)
     {
         const auto timeText = t.upToFirstOccurrenceOf(":", false, false).trim();
         const auto path = t.fromFirstOccurrenceOf(":", false, false);
-        const double seconds = timeText.getDoubleValue();
+        const double seconds = readNumber(timeText);
         if (!t.contains(":") || path.isEmpty() || timeText.isEmpty() ||
             !timeText.containsOnly("0123456789.") || seconds < 0.0)
         {

@@ -1,6 +1,7 @@
 // `kerf response --chain FILE [--rate HZ] [--points N | --freqs F1,...] [--format csv|json]`
 #include "ChainFile.h"
 #include "Commands.h"
+#include "NumberText.h"
 #include "Plot.h"
 #include "Response/SystemFunction.h"
 #include "SafeOutput.h"
@@ -158,7 +159,7 @@ int runResponse(Args args)
     double rate = 48000.0;
     if (rateText.isNotEmpty())
     {
-        rate = rateText.getDoubleValue();
+        rate = readNumber(rateText);
         if (!(rate >= 1000.0 && rate <= 1536000.0) || !rateText.containsOnly("0123456789.eE+"))
         {
             printError("--rate must be a sample rate in Hz from 1000 to 1536000, not '" + rateText +
@@ -179,7 +180,7 @@ int runResponse(Args args)
         for (auto item : items)
         {
             item = item.trim();
-            const double f = item.getDoubleValue();
+            const double f = readNumber(item);
             if (item.isEmpty() || !item.containsOnly("0123456789.eE+-") || !(f > 0.0) ||
                 !(f < nyquist))
             {

@@ -5,6 +5,8 @@
 #include "AudioInput.h"
 #include "ChainFile.h"
 #include "FuzzChecks.h"
+#include "NumberText.h"
+#include "PluginProcessor.h"
 
 #include <catch2/catch.hpp>
 
@@ -94,6 +96,78 @@ TEST_CASE("fuzz regression: a whole number too long for JUCE's JSON parser is re
     const auto fine = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
         [{"type": "peaking", "freq_hz": 1000.00000000000000000001, "gain_db": 1e-00000000000000000001}]})");
     CHECK(fine.ok);
+}
+
+TEST_CASE("fuzz regression: an exponent too long for JUCE's number reader is refused", "[fuzz]")
+{
+    // JUCE 7.0.5 adds up an exponent's significant digits in an int with no overflow check
+    // (juce_CharacterFunctions.h, readDoubleValue): 6666666666 passes 2^31 - 1, undefined
+    // behaviour (C++20 [expr.pre]/4) that UBSan reported from the chain-file fuzz target.
+    const auto r = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000, "gain_db": 1e-6666666666}]})");
+    CHECK_FALSE(r.ok);
+    CHECK(r.error.contains("exponent has 10 or more digits"));
+    // Nine significant digits fit an int (999999999 < 2^31 - 1); leading zeros never count.
+    const auto nine = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000, "gain_db": 1e-999999999, "q": 2E+00000000000000001}]})");
+    REQUIRE(nine.ok);
+    CHECK(nine.chain.stages[0].gainDb == 0.0);
+    CHECK(nine.chain.stages[0].q == 20.0);
+}
+
+TEST_CASE("readNumber reads numbers like JUCE, without its overflow", "[fuzz]")
+{
+    // Ordinary texts: the same value as juce::String::getDoubleValue (JUCE 7.0.5), whose
+    // reading follows strtod's decimal form (ISO C 7.22.1.3): white space, sign, digits with
+    // one point, an optional exponent; the rest of the text is ignored; no number reads 0.
+    for (const char* text :
+         {"0",   "1",    "-2.5",   "  +3.25", "1000.5 Hz", "5.",      ".5",
+          "1e3", "2E-2", "1e",     "1e+",     "7e-x",      "-0.0001", "abc",
+          "",    "-",    "12.5.7", "4.2e1ms", "0.1",       "1e308",   "6.02214076e23"})
+    {
+        INFO(text);
+        CHECK(readNumber(text) == juce::String(text).getDoubleValue());
+    }
+    // Beyond JUCE's reach (ten or more exponent digits): what strtod gives for the same
+    // text (ISO C 7.22.1.3: overflow gives HUGE_VAL, underflow a value no larger than the
+    // smallest normal number, here 0).
+    CHECK(readNumber("1e6666666666") == std::numeric_limits<double>::infinity());
+    CHECK(readNumber("-1e6666666666") == -std::numeric_limits<double>::infinity());
+    CHECK(readNumber("1e-6666666666") == 0.0);
+    CHECK(readNumber("0e99999999999") == 0.0);
+    // No hexadecimal, inf or nan text (JUCE reads those as 0; strtod would not).
+    CHECK(readNumber("0x10") == 0.0);
+    CHECK(readNumber("inf") == 0.0);
+    CHECK(readNumber("nan") == 0.0);
+
+    CHECK(overflowsJuceNumberReader("1e6666666666"));
+    CHECK(overflowsJuceNumberReader(" -2.5E+0001234567890 dB"));
+    CHECK_FALSE(overflowsJuceNumberReader("1e999999999"));
+    CHECK_FALSE(overflowsJuceNumberReader("1e0000000000000000000001"));
+    CHECK_FALSE(overflowsJuceNumberReader("Take e12345678901")); // not a number at all
+    CHECK_FALSE(overflowsJuceNumberReader("12345678901234567890123"));
+}
+
+TEST_CASE("fuzz regression: a saved state with an overlong exponent is refused", "[fuzz]")
+{
+    juce::ScopedJuceInitialiser_GUI init;
+    struct Quiet : juce::Logger
+    {
+        void logMessage(const juce::String&) override {}
+    } quiet;
+    juce::Logger::setCurrentLogger(&quiet);
+    {
+        KerfProcessor p;
+        juce::MemoryBlock bytes;
+        REQUIRE(juce::File(KERF_SOURCE_DIR)
+                    .getChildFile("Tests/fuzz/regressions/plugin_state")
+                    .getChildFile("exponent-overflows-juce-number-reader.state")
+                    .loadFileAsData(bytes));
+        p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
+        CHECK(p.lastStateProblem().contains("PARAM.value"));
+        CHECK(p.lastStateProblem().contains("exponent of 10 or more digits"));
+    }
+    juce::Logger::setCurrentLogger(nullptr);
 }
 
 TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[fuzz][cli]")
