@@ -8,7 +8,7 @@
 namespace kerf
 {
 
-AnalyzerView::AnalyzerView(KerfProcessor& p) : analysis(p)
+AnalyzerView::AnalyzerView(KerfProcessor& p) : processor(p), analysis(p)
 {
     toggle.setClickingTogglesState(true);
     toggle.setComponentID("analyzer");
@@ -40,6 +40,7 @@ void AnalyzerView::attachTo(ResponseView& view)
 void AnalyzerView::setAnalyzerOn(bool on, bool runThread)
 {
     toggle.setToggleState(on, juce::dontSendNotification);
+    processor.setAnalyzerSwitch(on);
     if (on == analysis.isEnabled())
         return;
     analysis.setEnabled(on, runThread);

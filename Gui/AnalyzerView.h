@@ -23,7 +23,8 @@ public:
 
     /// Draws into `view` from now on (the view must outlive this or be detached by it).
     void attachTo(ResponseView& view);
-    /// The switch (also the button's toggle).
+    /// The switch (also the button's toggle); the processor keeps it for the session
+    /// (KerfProcessor::setAnalyzerSwitch), so the editor opens with it as it was.
     void setAnalyzerOn(bool on, bool runThread = true);
     bool analyzerOn() const noexcept { return analysis.isEnabled(); }
     LiveAnalyzer& analyzer() noexcept { return analysis; }
@@ -47,6 +48,7 @@ private:
     void followGeometry();
     float yForLevel(double db) const noexcept;
 
+    KerfProcessor& processor;
     LiveAnalyzer analysis;
     ResponseView* target = nullptr;
     juce::TextButton toggle{"Analyzer"};

@@ -70,6 +70,10 @@ ImpulseView::ImpulseView()
         if (dbButton.getToggleState())
             setDecibels(true);
     };
+    setComponentID("impulseView");
+    setTitle("Impulse response display");
+    setDescription("The chain's impulse response over time");
+    setTooltip("The chain's response to a single unit sample, output gain included");
     worker = std::thread([this] { workerLoop(); });
 }
 
@@ -82,6 +86,11 @@ ImpulseView::~ImpulseView()
     workReady.notify_all();
     worker.join();
     cancelPendingUpdate();
+}
+
+std::unique_ptr<juce::AccessibilityHandler> ImpulseView::createAccessibilityHandler()
+{
+    return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::group);
 }
 
 void ImpulseView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz, double outputGainDb)

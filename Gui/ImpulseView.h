@@ -24,7 +24,9 @@ namespace kerf
 /// ones as a connected line. Rendered on the view's own background thread (2 s of a comb
 /// takes a few hundred ms; never the audio thread, never blocking the message thread), only
 /// when the chain, rate or gain changed and the view is visible; the newest request wins.
-class ImpulseView : public juce::Component, private juce::AsyncUpdater
+class ImpulseView : public juce::Component,
+                    public juce::SettableTooltipClient,
+                    private juce::AsyncUpdater
 {
 public:
     static constexpr double kMinSeconds = 0.005;
@@ -44,6 +46,8 @@ public:
     void paint(juce::Graphics& g) override;
     void resized() override;
     void visibilityChanged() override;
+    /// A group (role) titled "Impulse response display" holding its scale buttons.
+    std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;
 
     // ---- What is drawn and where (public for tests) ---------------------------------------
     /// Message thread: asks for the response if the chain changed while hidden, waits until

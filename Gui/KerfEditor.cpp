@@ -5,8 +5,27 @@
 namespace kerf
 {
 
-KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcessor(p), controls(p)
+KerfEditor::ResizeGrip::ResizeGrip(juce::Component& editor,
+                                   juce::ComponentBoundsConstrainer* limits)
+    : juce::ResizableCornerComponent(&editor, limits)
 {
+    setComponentID("resizeGrip");
+    setTitle("Resize grip");
+    setDescription("Drag to resize the editor");
+    setTooltip("Drag to resize the editor; the size is kept with the session");
+}
+
+std::unique_ptr<juce::AccessibilityHandler> KerfEditor::ResizeGrip::createAccessibilityHandler()
+{
+    // A mouse affordance drawn as a grip (hosts resize their windows themselves).
+    return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::image);
+}
+
+KerfEditor::KerfEditor(KerfProcessor& p)
+    : AudioProcessorEditor(p), kerfProcessor(p), settingsGeneration(p.editorSettingsGeneration()),
+      controls(p)
+{
+    const auto saved = p.editorSettings(); // before any resize records a size
     addAndMakeVisible(display);
     response.attachParameters(p.state());
     addAndMakeVisible(controls);
@@ -49,10 +68,20 @@ KerfEditor::KerfEditor(KerfProcessor& p) : AudioProcessorEditor(p), kerfProcesso
         addAndMakeVisible(c);
     addAndMakeVisible(analyzer);
     analyzer.attachTo(response);
+    undoButton.setTitle("Undo");
+    redoButton.setTitle("Redo");
+    compareButton.setTitle("A/B compare");
+    flatButton.setTitle("All flat");
     updateSessionRow();
-    setResizable(true, true);
-    setResizeLimits(480, 400, 2400, 1600);
-    setSize(760, 600);
+    // Host-resizable (the wrappers ask isResizable), with our own corner grip.
+    setResizable(true, false);
+    setResizeLimits(kMinWidth, kMinHeight, kMaxWidth, kMaxHeight);
+    grip = std::make_unique<ResizeGrip>(*this, getConstrainer());
+    grip->setAlwaysOnTop(true);
+    addAndMakeVisible(*grip);
+    setSize(saved.width > 0 ? juce::jlimit(kMinWidth, kMaxWidth, saved.width) : kDefaultWidth,
+            saved.height > 0 ? juce::jlimit(kMinHeight, kMaxHeight, saved.height) : kDefaultHeight);
+    analyzer.setAnalyzerOn(saved.analyzerOn);
     refreshResponse();
     updateEchoPanel();
     startTimerHz(30);
@@ -70,6 +99,10 @@ void KerfEditor::paint(juce::Graphics& g)
 
 void KerfEditor::resized()
 {
+    // Unscaled pixels: a host's scale factor is a transform on top and changes nothing here.
+    kerfProcessor.setEditorSize(getWidth(), getHeight());
+    if (grip != nullptr)
+        grip->setBounds(getWidth() - 18, getHeight() - 18, 18, 18);
     auto area = getLocalBounds();
     auto sessionRow = area.removeFromTop(34).reduced(4);
     for (auto* b : {&undoButton, &redoButton, &compareButton})
@@ -151,8 +184,23 @@ void KerfEditor::updateSessionRow()
     compareButton.setButtonText(kerfProcessor.activeSlot() == CompareSlot::a ? "A/B: A" : "A/B: B");
 }
 
+void KerfEditor::applySavedSettings()
+{
+    const auto saved = kerfProcessor.editorSettings();
+    if (saved.width > 0 && saved.height > 0)
+        setSize(juce::jlimit(kMinWidth, kMaxWidth, saved.width),
+                juce::jlimit(kMinHeight, kMaxHeight, saved.height));
+    kerfProcessor.setEditorSize(getWidth(), getHeight()); // a state without a size keeps ours
+    analyzer.setAnalyzerOn(saved.analyzerOn);
+}
+
 void KerfEditor::timerCallback()
 {
+    if (const int g = kerfProcessor.editorSettingsGeneration(); g != settingsGeneration)
+    {
+        settingsGeneration = g;
+        applySavedSettings();
+    }
     refreshResponse();
     updateEchoPanel();
     updateSessionRow();

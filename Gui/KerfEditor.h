@@ -2,6 +2,7 @@
 // The first editor: the chain's response curve over a plain list of every parameter.
 #include "AnalyzerView.h"
 #include "DisplayDeck.h"
+#include "ParameterPanel.h"
 #include "ResponseView.h"
 
 #include <juce_audio_processors/juce_audio_processors.h>
@@ -12,10 +13,18 @@ namespace kerf
 class KerfProcessor;
 
 /// Plain, honest editor: the curve is the chain's exact H(z), the controls are the
-/// parameters themselves. The full editor replaces it later.
+/// parameters themselves. Resizable within fixed limits; its size and the analyzer switch
+/// live in the processor's state (KerfProcessor::editorSettings), so a session reopens the
+/// editor as it was. A host's scale factor (setScaleFactor: VST3 setContentScaleFactor, LV2
+/// ui:scaleFactor) scales the whole editor; the layout works in unscaled pixels.
 class KerfEditor : public juce::AudioProcessorEditor, private juce::Timer
 {
 public:
+    /// Size limits and the size of a first opening, in unscaled pixels.
+    static constexpr int kMinWidth = 560, kMinHeight = 440;
+    static constexpr int kMaxWidth = 2400, kMaxHeight = 1600;
+    static constexpr int kDefaultWidth = 760, kDefaultHeight = 600;
+
     explicit KerfEditor(KerfProcessor& processor);
     ~KerfEditor() override;
 
@@ -28,14 +37,19 @@ public:
     ResponseView& responseView() noexcept { return response; }
     /// The display area: response, z-plane or impulse view.
     DisplayDeck& displayDeck() noexcept { return display; }
+    /// The list of every parameter.
+    ParameterPanel& parameterPanel() noexcept { return controls; }
 
 private:
     void timerCallback() override;
+    /// Takes the size and analyzer switch from the processor (after a restore).
+    void applySavedSettings();
 
     KerfProcessor& kerfProcessor;
+    int settingsGeneration = 0;
     ResponseView response;
     DisplayDeck display{response};
-    juce::GenericAudioProcessorEditor controls;
+    ParameterPanel controls;
     juce::Label protectionLabel;
     int protectionHoldFrames = 0;
 
@@ -59,6 +73,16 @@ public:
 
 private:
     AnalyzerView analyzer{kerfProcessor};
+
+    /// The bottom-right corner resizer, with a title, a role and a tooltip like every control.
+    class ResizeGrip : public juce::ResizableCornerComponent, public juce::SettableTooltipClient
+    {
+    public:
+        ResizeGrip(juce::Component& editor, juce::ComponentBoundsConstrainer* limits);
+        std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;
+    };
+    std::unique_ptr<ResizeGrip> grip;
+    juce::TooltipWindow tooltips{this, 700};
 };
 
 } // namespace kerf

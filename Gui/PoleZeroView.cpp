@@ -96,6 +96,13 @@ PoleZeroView::PoleZeroView()
     stageBox.setTooltip("Draws one stage's roots in full colour and dims the others");
     stageBox.onChange = [this] { setHighlightedStage(std::max(-1, stageBox.getSelectedId() - 2)); };
     addAndMakeVisible(stageBox);
+    zoomButton.setTitle("Zoom near z = 1");
+    stageBox.setTitle("Highlighted stage");
+    setComponentID("poleZeroView");
+    setTitle("Pole-zero display");
+    setDescription("Poles and zeros of the enabled stages on the z-plane");
+    setTooltip("Poles (x) and zeros (o) of the enabled stages; hover over a mark for its "
+               "radius and angle");
     worker = std::thread([this] { workerLoop(); });
 }
 
@@ -108,6 +115,11 @@ PoleZeroView::~PoleZeroView()
     workReady.notify_all();
     worker.join();
     cancelPendingUpdate();
+}
+
+std::unique_ptr<juce::AccessibilityHandler> PoleZeroView::createAccessibilityHandler()
+{
+    return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::group);
 }
 
 void PoleZeroView::setChain(const dsp::ChainSpec& newChain, double sampleRateHz)

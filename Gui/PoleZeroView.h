@@ -26,7 +26,9 @@ namespace kerf
 /// Roots are computed on the view's own background thread (an echo model of degree 600 takes
 /// about a second; never the audio thread, never blocking the message thread), only for
 /// stages that changed, and only while the view is visible; the newest request wins.
-class PoleZeroView : public juce::Component, private juce::AsyncUpdater
+class PoleZeroView : public juce::Component,
+                     public juce::SettableTooltipClient,
+                     private juce::AsyncUpdater
 {
 public:
     /// Roots closer than this in the z-plane (|z1 - z2|) count as one root of higher
@@ -83,6 +85,8 @@ public:
     void visibilityChanged() override;
     void mouseMove(const juce::MouseEvent& e) override;
     void mouseExit(const juce::MouseEvent& e) override;
+    /// A group (role) titled "Pole-zero display" holding its zoom button and stage box.
+    std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;
 
     // ---- Geometry (public so that tests check where the marks are drawn) ------------------
     /// The square plot in this component's coordinates.

@@ -121,12 +121,18 @@ ResponseView::ResponseView()
     pathBox.addItemList({"Left", "Right", "Mid", "Side"}, 1);
     pathBox.setSelectedId(1, juce::dontSendNotification);
     pathBox.setComponentID("viewPath");
+    pathBox.setTitle("Channel path");
+    rangeButton.setTitle("Magnitude scale");
     pathBox.setTooltip("Which path through the stereo chain the curve follows (they differ "
                        "only when a stage works on one channel, or on mid or side)");
     pathBox.onChange = [this]
     { setChannelView(static_cast<dsp::ChannelView>(pathBox.getSelectedId() - 1)); };
     addAndMakeVisible(pathBox);
     addChildComponent(handles);
+    setComponentID("responseView");
+    setTitle("Response display");
+    setDescription("The chain's response computed from its system function");
+    setTooltip("What the chain does to each frequency, computed from its system function");
     worker = std::thread([this] { workerLoop(); });
 }
 
@@ -206,6 +212,11 @@ void ResponseView::resized()
     layoutControls();
     handles.setBounds(getLocalBounds());
     evaluate();
+}
+
+std::unique_ptr<juce::AccessibilityHandler> ResponseView::createAccessibilityHandler()
+{
+    return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::group);
 }
 
 void ResponseView::layoutControls()

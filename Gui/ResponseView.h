@@ -27,7 +27,9 @@ namespace kerf
 /// view's own background thread (never the audio thread, never blocking the message thread),
 /// and only when the chain, the sample rate, the view or the size changed; a change that
 /// arrives while one is evaluated replaces any older waiting one.
-class ResponseView : public juce::Component, private juce::AsyncUpdater
+class ResponseView : public juce::Component,
+                     public juce::SettableTooltipClient,
+                     private juce::AsyncUpdater
 {
 public:
     /// What the curve shows.
@@ -59,6 +61,8 @@ public:
 
     void paint(juce::Graphics& g) override;
     void resized() override;
+    /// A group (role) titled "Response display" holding its buttons and the section handles.
+    std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;
     /// Painted inside the plot (clipped to it) after the grid and under the curves: the live
     /// analyzer's spectra (AnalyzerView::attachTo sets it).
     std::function<void(juce::Graphics&)> paintUnderCurves;

@@ -32,6 +32,8 @@ SectionHandles::SectionHandles(ResponseView& v) : view(v)
     setComponentID("sectionHandles");
     setWantsKeyboardFocus(true);
     setTitle("Section handles");
+    setTooltip("Drag a handle for frequency and gain; wheel or Alt-drag for Q; double-click "
+               "resets; Tab selects one from the keyboard");
     setHelpText("Tab selects a section; arrows step frequency and gain, plus and minus Q "
                 "(Shift: finer); Enter types a frequency, G a gain, Q a Q; Delete resets.");
     valueField.setVisible(false);
@@ -453,6 +455,7 @@ bool SectionHandles::openField(Field kind)
                               : kind == Field::gain    ? "gain"
                                                        : "Q";
     valueField.setTitle("Section " + juce::String(fieldSlot + 1) + " " + name);
+    valueField.setTooltip("Type the section's " + name + "; Return sets it, Escape cancels");
     valueField.setTextToShowWhenEmpty(name, kRing.withAlpha(0.6f));
     valueField.setText(kind == Field::q ? juce::String(h->q, 3) : p->getCurrentValueAsText(),
                        false);

@@ -16,7 +16,7 @@ class ResponseView;
 /// Lies over its ResponseView (same bounds) and takes the mouse only inside the plot. Every
 /// change goes through the slot's parameters with begin/endChangeGesture, so a drag, a wheel
 /// notch or a reset is one undo step and hosts record it as automation.
-class SectionHandles : public juce::Component
+class SectionHandles : public juce::Component, public juce::SettableTooltipClient
 {
 public:
     /// Q per wheel notch (up: times this factor; down: divided by it).

@@ -16,6 +16,14 @@ const juce::Identifier kSlotsTag{"CompareSlots"};
 const juce::Identifier kSlotTag{"Slot"};
 const juce::Identifier kActiveAttr{"active"};
 const juce::Identifier kSlotNameAttr{"name"};
+// The editor's size and analyzer switch: one optional child of the state (older Kerf ignores
+// it; a state without it opens the editor at its default size with the analyzer off).
+const juce::Identifier kEditorTag{"EditorView"};
+const juce::Identifier kEditorWidthAttr{"width"};
+const juce::Identifier kEditorHeightAttr{"height"};
+const juce::Identifier kEditorAnalyzerAttr{"analyzer"};
+/// Largest editor side a state may carry (the editor's own limits apply on top).
+constexpr int kEditorSideMax = 16384;
 
 /// Names the first attribute of `root` (or of any element inside it) that JUCE cannot read
 /// as a number without overflowing (NumberText.h), or nothing. Walked without recursion,
@@ -512,7 +520,55 @@ void KerfProcessor::getStateInformation(juce::MemoryBlock& destData)
                 }
         }
     }
+    const auto view = editorSettings();
+    auto* editorXml = xml->createNewChildElement(kEditorTag.toString());
+    if (view.width > 0 && view.height > 0)
+    {
+        editorXml->setAttribute(kEditorWidthAttr, view.width);
+        editorXml->setAttribute(kEditorHeightAttr, view.height);
+    }
+    editorXml->setAttribute(kEditorAnalyzerAttr, view.analyzerOn ? 1 : 0);
     copyXmlToBinary(*xml, destData);
+}
+
+KerfProcessor::EditorSettings KerfProcessor::editorSettings() const noexcept
+{
+    return {editorWidth.load(std::memory_order_relaxed),
+            editorHeight.load(std::memory_order_relaxed),
+            analyzerSwitch.load(std::memory_order_relaxed)};
+}
+
+void KerfProcessor::setEditorSize(int width, int height) noexcept
+{
+    const bool valid =
+        width > 0 && height > 0 && width <= kEditorSideMax && height <= kEditorSideMax;
+    editorWidth.store(valid ? width : 0, std::memory_order_relaxed);
+    editorHeight.store(valid ? height : 0, std::memory_order_relaxed);
+}
+
+void KerfProcessor::setAnalyzerSwitch(bool on) noexcept
+{
+    analyzerSwitch.store(on, std::memory_order_relaxed);
+}
+
+void KerfProcessor::restoreEditorSettings(const juce::XmlElement* state)
+{
+    // Anything missing or out of range: the default size, analyzer off.
+    // Plain digits only, read by hand: JUCE's number readers overflow on long digit runs.
+    const auto* e = state != nullptr ? state->getChildByName(kEditorTag) : nullptr;
+    auto side = [e](const juce::Identifier& name)
+    {
+        const auto t = e != nullptr ? e->getStringAttribute(name).trim() : juce::String();
+        if (t.isEmpty() || t.length() > 5 || !t.containsOnly("0123456789"))
+            return 0;
+        int v = 0;
+        for (auto c : t)
+            v = 10 * v + static_cast<int>(c - '0');
+        return v;
+    };
+    setEditorSize(side(kEditorWidthAttr), side(kEditorHeightAttr));
+    setAnalyzerSwitch(e != nullptr && e->getStringAttribute(kEditorAnalyzerAttr).trim() == "1");
+    editorGeneration.fetch_add(1, std::memory_order_acq_rel);
 }
 
 void KerfProcessor::restoreSlots(const juce::XmlElement& state)
@@ -558,6 +614,8 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     // history, with the comparison slots it saved (or none).
     edits.clear();
     setSlots({}, {}, CompareSlot::a);
+    // The editor's size and analyzer switch: defaults unless the state holds them (below).
+    restoreEditorSettings(nullptr);
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {
@@ -601,6 +659,7 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     }
     parameters.replaceState(current);
     restoreSlots(*xml);
+    restoreEditorSettings(xml.get());
 }
 
 } // namespace kerf

@@ -141,6 +141,27 @@ public:
         return analyzerRate.load(std::memory_order_relaxed);
     }
 
+    // ---- What the editor keeps in the session (any thread; saved with the state) ----------
+    /// The editor's size in its own (unscaled) pixels, 0 x 0 before an editor has been open
+    /// (the editor then opens at its default size), and whether the live analyzer is on.
+    struct EditorSettings
+    {
+        int width = 0, height = 0;
+        bool analyzerOn = false;
+    };
+    EditorSettings editorSettings() const noexcept;
+    /// The editor records its size here whenever it is resized.
+    void setEditorSize(int width, int height) noexcept;
+    /// The editor records its analyzer switch here (off by default). The audio feed is
+    /// separate (setAnalyzerFeed): it runs only while an editor shows the analyzer.
+    void setAnalyzerSwitch(bool on) noexcept;
+    /// Counts restores (setStateInformation) that replaced the editor settings, so that an
+    /// open editor takes the restored size and switch.
+    int editorSettingsGeneration() const noexcept
+    {
+        return editorGeneration.load(std::memory_order_acquire);
+    }
+
     /// Why the last state restore fell back to defaults ("" when it did not); the reason is
     /// also written to juce::Logger (the host's log, or stderr).
     juce::String lastStateProblem() const { return stateProblem; }
@@ -170,6 +191,9 @@ private:
     dsp::AnalyzerFifo analyzerQueue{1 << 15};   // 0.68 s at 48 kHz; allocated once, here
     std::vector<float> analyzerIn, analyzerOut; // a piece's mono sums, sized in prepareToPlay
     std::atomic<double> analyzerRate{0.0};
+    std::atomic<int> editorWidth{0}, editorHeight{0}, editorGeneration{0};
+    std::atomic<bool> analyzerSwitch{false};
+    void restoreEditorSettings(const juce::XmlElement* state);
     int currentProgram = 0;
     juce::String stateProblem;
     UserPresetFolder presetFolder;
