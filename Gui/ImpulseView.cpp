@@ -74,17 +74,11 @@ ImpulseView::ImpulseView()
     setTitle("Impulse response display");
     setDescription("The chain's impulse response over time");
     setTooltip("The chain's response to a single unit sample, output gain included");
-    worker = std::thread([this] { workerLoop(); });
 }
 
 ImpulseView::~ImpulseView()
 {
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        quitting = true;
-    }
-    workReady.notify_all();
-    worker.join();
+    worker.stop();
     cancelPendingUpdate();
 }
 
@@ -131,63 +125,37 @@ double ImpulseView::durationSeconds() const noexcept
 void ImpulseView::requestTrace()
 {
     dirty = false;
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        pending = Request{++lastRequestId, chain, sampleRate, gainDb};
-    }
-    workReady.notify_one();
+    worker.request(Request{chain, sampleRate, gainDb});
 }
 
-void ImpulseView::workerLoop()
+ImpulseView::Result ImpulseView::render(const Request& request)
 {
-    for (;;)
+    const auto start = std::chrono::steady_clock::now();
+    Result r;
+    r.sampleRateHz = request.sampleRateHz;
+    r.tail = dsp::chainTailSeconds(request.chain, request.sampleRateHz);
+    const double seconds = std::clamp(1.1 * r.tail, kMinSeconds, kMaxSeconds);
+    const int length = std::max(2, static_cast<int>(std::ceil(seconds * request.sampleRateHz)) + 1);
+    r.h = dsp::impulseResponse(request.chain, request.sampleRateHz, length);
+    const double gain = std::pow(10.0, request.gainDb / 20.0);
+    for (auto& v : r.h)
     {
-        Request request;
-        {
-            std::unique_lock<std::mutex> lock(workMutex);
-            workReady.wait(lock, [this] { return quitting || pending.has_value(); });
-            if (quitting)
-                return;
-            request = std::move(*pending);
-            pending.reset();
-        }
-        const auto start = std::chrono::steady_clock::now();
-        Result r;
-        r.id = request.id;
-        r.sampleRateHz = request.sampleRateHz;
-        r.tail = dsp::chainTailSeconds(request.chain, request.sampleRateHz);
-        const double seconds = std::clamp(1.1 * r.tail, kMinSeconds, kMaxSeconds);
-        const int length =
-            std::max(2, static_cast<int>(std::ceil(seconds * request.sampleRateHz)) + 1);
-        r.h = dsp::impulseResponse(request.chain, request.sampleRateHz, length);
-        const double gain = std::pow(10.0, request.gainDb / 20.0);
-        for (auto& v : r.h)
-        {
-            v *= gain;
-            if (std::isfinite(v))
-                r.peak = std::max(r.peak, std::abs(v));
-        }
-        r.ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start)
-                   .count();
-        {
-            const std::lock_guard<std::mutex> lock(workMutex);
-            finished = std::move(r);
-        }
-        resultReady.notify_all();
-        triggerAsyncUpdate();
+        v *= gain;
+        if (std::isfinite(v))
+            r.peak = std::max(r.peak, std::abs(v));
     }
+    r.ms =
+        std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count();
+    return r;
 }
 
 bool ImpulseView::takeResult()
 {
-    std::optional<Result> r;
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        r.swap(finished);
-    }
-    if (!r)
+    auto taken = worker.take();
+    if (!taken)
         return false;
-    shownId = r->id;
+    shownId = taken->first;
+    auto* r = &taken->second;
     h = std::move(r->h);
     shownRate = r->sampleRateHz;
     tail = r->tail;
@@ -210,15 +178,11 @@ bool ImpulseView::waitForTrace(int timeoutMs)
 {
     if (dirty)
         requestTrace();
-    {
-        std::unique_lock<std::mutex> lock(workMutex);
-        const auto wanted = lastRequestId;
-        if (shownId == wanted)
-            return true;
-        if (!resultReady.wait_for(lock, std::chrono::milliseconds(timeoutMs),
-                                  [&] { return finished && finished->id == wanted; }))
-            return false;
-    }
+    const auto wanted = worker.lastRequest();
+    if (shownId == wanted)
+        return true;
+    if (!worker.waitFor(wanted, timeoutMs))
+        return false;
     cancelPendingUpdate();
     return takeResult();
 }
@@ -345,7 +309,7 @@ void ImpulseView::paint(juce::Graphics& g)
     g.setFont(11.0f);
     juce::String what = showDb ? "impulse response, dB of |h| (envelope)" : "impulse response h[n]";
     what << ", " << juce::String(h.size()) << " samples";
-    if (shownId != lastRequestId)
+    if (shownId != worker.lastRequest())
         what << " (rendering...)";
     if (1.1 * tail > kMaxSeconds)
         what << "; first " << juce::String(kMaxSeconds, 0) << " s of a " << juce::String(tail, 1)

@@ -2,15 +2,12 @@
 // The impulse-response view: the chain's impulse response on a linear or a dB (envelope)
 // scale over a time axis in milliseconds.
 #include "Chain.h"
+#include "NewestRequestWorker.h"
 #include "Response/SystemFunction.h"
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
-#include <condition_variable>
 #include <cstdint>
-#include <mutex>
-#include <optional>
-#include <thread>
 #include <vector>
 
 namespace kerf
@@ -84,7 +81,6 @@ public:
 
 private:
     void requestTrace();
-    void workerLoop();
     bool takeResult();
     void handleAsyncUpdate() override;
     void buildColumns();
@@ -107,28 +103,24 @@ private:
 
     juce::TextButton linearButton{"Linear"}, dbButton{"dB envelope"};
 
-    // The background render: requests in, responses out (both under workMutex).
+    // The background render: requests in, responses out.
     struct Request
     {
-        std::uint64_t id = 0;
         dsp::ChainSpec chain;
         double sampleRateHz = 48000.0, gainDb = 0.0;
     };
     struct Result
     {
-        std::uint64_t id = 0;
         std::vector<double> h;
         double sampleRateHz = 48000.0, tail = 0.0, peak = 0.0, ms = 0.0;
     };
-    std::mutex workMutex;
-    std::condition_variable workReady, resultReady;
-    std::optional<Request> pending;
-    std::optional<Result> finished;
-    std::uint64_t lastRequestId = 0;
+    /// The impulse response of a request (background thread).
+    static Result render(const Request& request);
     std::uint64_t shownId = 0;  // message thread
     double shownRate = 48000.0; // the rate of the samples drawn
-    bool quitting = false;
-    std::thread worker; // started in the constructor's body, joined first in the destructor
+    // Last member: its thread waits for requests; the destructor stops it first.
+    NewestRequestWorker<Request, Result> worker{[](const Request& r) { return render(r); },
+                                                [this] { triggerAsyncUpdate(); }};
 };
 
 } // namespace kerf

@@ -103,17 +103,11 @@ PoleZeroView::PoleZeroView()
     setDescription("Poles and zeros of the enabled stages on the z-plane");
     setTooltip("Poles (x) and zeros (o) of the enabled stages; hover over a mark for its "
                "radius and angle");
-    worker = std::thread([this] { workerLoop(); });
 }
 
 PoleZeroView::~PoleZeroView()
 {
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        quitting = true;
-    }
-    workReady.notify_all();
-    worker.join();
+    worker.stop();
     cancelPendingUpdate();
 }
 
@@ -170,87 +164,61 @@ void PoleZeroView::visibilityChanged()
 void PoleZeroView::requestRoots()
 {
     dirty = false;
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        pending = Request{++lastRequestId, chain, sampleRate};
-    }
-    workReady.notify_one();
+    worker.request(Request{chain, sampleRate});
 }
 
-void PoleZeroView::workerLoop()
+PoleZeroView::Result PoleZeroView::evaluate(const Request& request)
 {
-    for (;;)
+    const auto start = std::chrono::steady_clock::now();
+    const auto& c = request.chain;
+    cache.resize(static_cast<std::size_t>(c.numStages));
+    Result result;
+    std::vector<std::complex<double>> zeros, poles;
+    std::vector<int> zeroStages, poleStages;
+    for (int i = 0; i < c.numStages; ++i)
     {
-        Request request;
+        const auto& s = c.stages[static_cast<std::size_t>(i)];
+        if (!s.enabled)
+            continue;
+        auto& cached = cache[static_cast<std::size_t>(i)];
+        if (cached.sampleRateHz != request.sampleRateHz || !(cached.spec == s))
         {
-            std::unique_lock<std::mutex> lock(workMutex);
-            workReady.wait(lock, [this] { return quitting || pending.has_value(); });
-            if (quitting)
-                return;
-            request = std::move(*pending);
-            pending.reset();
+            cached.roots = dsp::stagePolesZeros(s, request.sampleRateHz);
+            cached.spec = s;
+            cached.sampleRateHz = request.sampleRateHz;
+            ++solves;
         }
-        const auto start = std::chrono::steady_clock::now();
-        const auto& c = request.chain;
-        cache.resize(static_cast<std::size_t>(c.numStages));
-        Result result;
-        result.id = request.id;
-        std::vector<std::complex<double>> zeros, poles;
-        std::vector<int> zeroStages, poleStages;
-        for (int i = 0; i < c.numStages; ++i)
+        if (!cached.roots.listed)
         {
-            const auto& s = c.stages[static_cast<std::size_t>(i)];
-            if (!s.enabled)
-                continue;
-            auto& cached = cache[static_cast<std::size_t>(i)];
-            if (cached.sampleRateHz != request.sampleRateHz || !(cached.spec == s))
-            {
-                cached.roots = dsp::stagePolesZeros(s, request.sampleRateHz);
-                cached.spec = s;
-                cached.sampleRateHz = request.sampleRateHz;
-                ++solves;
-            }
-            if (!cached.roots.listed)
-            {
-                result.model.notes.push_back(stageName(s) + ": " + juce::String(cached.roots.note));
-                continue;
-            }
-            for (const auto& z : cached.roots.zeros)
-            {
-                zeros.push_back(z);
-                zeroStages.push_back(i);
-            }
-            for (const auto& p : cached.roots.poles)
-            {
-                poles.push_back(p);
-                poleStages.push_back(i);
-            }
+            result.model.notes.push_back(stageName(s) + ": " + juce::String(cached.roots.note));
+            continue;
         }
-        result.model.marks = groupRoots(zeros, zeroStages, false);
-        auto p = groupRoots(poles, poleStages, true);
-        result.model.marks.insert(result.model.marks.end(), p.begin(), p.end());
-        result.ms =
-            std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start)
-                .count();
+        for (const auto& z : cached.roots.zeros)
         {
-            const std::lock_guard<std::mutex> lock(workMutex);
-            finished = std::move(result);
+            zeros.push_back(z);
+            zeroStages.push_back(i);
         }
-        resultReady.notify_all();
-        triggerAsyncUpdate();
+        for (const auto& p : cached.roots.poles)
+        {
+            poles.push_back(p);
+            poleStages.push_back(i);
+        }
     }
+    result.model.marks = groupRoots(zeros, zeroStages, false);
+    auto p = groupRoots(poles, poleStages, true);
+    result.model.marks.insert(result.model.marks.end(), p.begin(), p.end());
+    result.ms =
+        std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count();
+    return result;
 }
 
 bool PoleZeroView::takeResult()
 {
-    std::optional<Result> result;
-    {
-        const std::lock_guard<std::mutex> lock(workMutex);
-        result.swap(finished);
-    }
-    if (!result)
+    auto taken = worker.take();
+    if (!taken)
         return false;
-    shownId = result->id;
+    shownId = taken->first;
+    auto* result = &taken->second;
     current = std::move(result->model);
     evaluationMs = result->ms;
     chooseWindow();
@@ -267,15 +235,11 @@ bool PoleZeroView::waitForRoots(int timeoutMs)
 {
     if (dirty)
         requestRoots();
-    {
-        std::unique_lock<std::mutex> lock(workMutex);
-        const auto wanted = lastRequestId;
-        if (shownId == wanted)
-            return true;
-        if (!resultReady.wait_for(lock, std::chrono::milliseconds(timeoutMs),
-                                  [&] { return finished && finished->id == wanted; }))
-            return false;
-    }
+    const auto wanted = worker.lastRequest();
+    if (shownId == wanted)
+        return true;
+    if (!worker.waitFor(wanted, timeoutMs))
+        return false;
     cancelPendingUpdate();
     return takeResult();
 }
@@ -504,7 +468,7 @@ void PoleZeroView::paint(juce::Graphics& g)
          kSand.withAlpha(0.6f));
     for (const auto& n : current.notes)
         line(n, kSand.withAlpha(0.7f));
-    if (shownId != lastRequestId)
+    if (shownId != worker.lastRequest())
         line("computing roots...", kSand.withAlpha(0.6f));
     const Mark* m = hoverPoint.x >= 0.0f ? markNear(hoverPoint) : nullptr;
     const juce::String readout =

@@ -2,17 +2,14 @@
 // The z-plane view: the unit circle with its axes, and the poles (x) and zeros (o) of every
 // enabled stage, from the DSP core's stagePolesZeros.
 #include "Chain.h"
+#include "NewestRequestWorker.h"
 #include "Response/SystemFunction.h"
 
 #include <juce_gui_basics/juce_gui_basics.h>
 
 #include <atomic>
 #include <complex>
-#include <condition_variable>
 #include <cstdint>
-#include <mutex>
-#include <optional>
-#include <thread>
 #include <vector>
 
 namespace kerf
@@ -114,7 +111,6 @@ public:
 
 private:
     void requestRoots();
-    void workerLoop();
     bool takeResult();
     void handleAsyncUpdate() override;
     void chooseWindow();
@@ -137,19 +133,19 @@ private:
     juce::TextButton zoomButton{"Near z = 1"};
     juce::ComboBox stageBox;
 
-    // The background evaluation: requests in, models out (both under workMutex).
+    // The background evaluation: requests in, models out.
     struct Request
     {
-        std::uint64_t id = 0;
         dsp::ChainSpec chain;
         double sampleRateHz = 48000.0;
     };
     struct Result
     {
-        std::uint64_t id = 0;
         Model model;
         double ms = 0.0;
     };
+    /// The model of a request (background thread; solves only stages not in the cache).
+    Result evaluate(const Request& request);
     struct CachedStage
     {
         dsp::StageSpec spec;
@@ -158,14 +154,10 @@ private:
     };
     std::vector<CachedStage> cache; // per chain index; worker thread only
     std::atomic<int> solves{0};
-    std::mutex workMutex;
-    std::condition_variable workReady, resultReady;
-    std::optional<Request> pending;
-    std::optional<Result> finished;
-    std::uint64_t lastRequestId = 0;
     std::uint64_t shownId = 0; // message thread
-    bool quitting = false;
-    std::thread worker; // started in the constructor's body, joined first in the destructor
+    // Last member: its thread waits for requests; the destructor stops it first.
+    NewestRequestWorker<Request, Result> worker{[this](const Request& r) { return evaluate(r); },
+                                                [this] { triggerAsyncUpdate(); }};
 };
 
 } // namespace kerf
