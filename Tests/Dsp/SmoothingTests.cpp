@@ -201,6 +201,158 @@ TEST_CASE("smoothing: a glide path's slope is the derivative of its values", "[s
     CHECK(checked > 200);
 }
 
+TEST_CASE("smoothing: a run's knot intervals meet the path at every knot", "[smoothing]")
+{
+    // glideSegments lays out up to eight consecutive knot intervals along one path at once
+    // (the processor's runs). Each interval's cubic is the cubic Hermite interpolant (common
+    // practice, from memory): at n = 0 it has the values and slope (per sample) of the
+    // path where the interval starts, at n = K those where it ends, i.e. the path's exact
+    // folded values (GlidePath::foldedAt) and their slopes times ds/dn. Checked for 1 to 8
+    // intervals of 32, 64 and 96 samples along the smoothstep of a 1536-sample glide, on
+    // paths between random designs of every gliding type.
+    std::mt19937 rng(4242);
+    std::uniform_real_distribution<double> u(0.0, 1.0);
+    const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
+                               StageType::notch,   StageType::bandPass, StageType::tilt};
+    int checked = 0;
+    for (int trial = 0; trial < 120; ++trial)
+    {
+        StageSpec a;
+        a.type = types[trial % 6];
+        a.design = trial % 4 ? DesignMode::accurate : DesignMode::bilinear;
+        a.freqHz = 30.0 * std::pow(600.0, u(rng));
+        a.gainDb = (trial % 2 ? 1.0 : -1.0) * (1.0 + 14.0 * u(rng));
+        a.q = 0.4 * std::pow(20.0, u(rng));
+        StageSpec b = a;
+        b.freqHz *= std::pow(2.0, 2.0 * u(rng) - 1.0);
+        b.gainDb += (a.gainDb > 0.0 ? -1.0 : 1.0) * 0.9 * std::abs(a.gainDb) * u(rng);
+        b.q *= std::pow(2.0, 2.0 * u(rng) - 1.0);
+        const auto da = designStage(a, kFs), db = designStage(b, kFs);
+        if (da.count != 1 || db.count != 1)
+            continue;
+        const GlidePath path(toNatural(toSvf(da.sections[0])), toNatural(toSvf(db.sections[0])));
+        const int count = 1 + trial % 8, step = 32 * (1 + trial % 3), glide = 1536;
+        const int first = step * (trial % 5); // the run starts at this knot
+        // Where the run starts: the path's values and slope per sample.
+        auto pathAt = [&](int n, double value[6], double slope[6])
+        {
+            const double t = static_cast<double>(n) / glide;
+            path.foldedAt(transitionCurve(t), value, slope);
+            for (int m = 0; m < 6; ++m)
+                slope[m] *= transitionSlope(t) / glide;
+        };
+        double value[8] = {}, slope[8] = {};
+        pathAt(first, value, slope);
+        double s[8], dsdn[8];
+        int length[8];
+        std::vector<std::array<double, 32>> cubics(8);
+        double* cubic[8];
+        for (int i = 0; i < count; ++i)
+        {
+            const double t = static_cast<double>(first + (i + 1) * step) / glide;
+            s[i] = transitionCurve(t);
+            dsdn[i] = transitionSlope(t) / glide;
+            length[i] = step;
+            cubic[i] = cubics[static_cast<std::size_t>(i)].data();
+        }
+        const GlidePath* paths[8];
+        double *values[8], *slopes[8];
+        for (int i = 0; i < count; ++i)
+        {
+            paths[i] = &path;
+            values[i] = value;
+            slopes[i] = slope;
+        }
+        const double value0[8] = {value[0], value[1], value[2], value[3], value[4], value[5]};
+        const double slope0[8] = {slope[0], slope[1], slope[2], slope[3], slope[4], slope[5]};
+        glideSegments(paths, s, dsdn, length, count, values, slopes, cubic);
+        for (int i = 0; i < count; ++i)
+        {
+            double v0[6], d0[6], v1[6], d1[6];
+            pathAt(first + i * step, v0, d0);
+            pathAt(first + (i + 1) * step, v1, d1);
+            const double* c = cubic[i];
+            const double K = step;
+            for (int m = 0; m < 6; ++m)
+            {
+                INFO("trial " << trial << ", interval " << i << " of " << count << ", value " << m);
+                const double end = c[m] + K * (c[8 + m] + K * (c[16 + m] + K * c[24 + m]));
+                const double endSlope = c[8 + m] + K * (2.0 * c[16 + m] + 3.0 * K * c[24 + m]);
+                const double scale = 1.0 + std::abs(v1[m]);
+                // Values at the scale of the folded terms; slopes per sample, at that scale
+                // over the interval.
+                CHECK(std::abs(c[m] - v0[m]) <= 1e-12 * (1.0 + std::abs(v0[m])));
+                CHECK(std::abs(c[8 + m] - d0[m]) * K <= 1e-11 * (1.0 + std::abs(v0[m])));
+                CHECK(std::abs(end - v1[m]) <= 1e-11 * scale);
+                CHECK(std::abs(endSlope - d1[m]) * K <= 1e-10 * scale);
+            }
+            for (int o = 0; o < 4; ++o)
+                CHECK((c[8 * o + 6] == 0.0 && c[8 * o + 7] == 0.0));
+        }
+        // The values and slopes handed back are the last knot's.
+        double vEnd[6], dEnd[6];
+        pathAt(first + count * step, vEnd, dEnd);
+        for (int m = 0; m < 6; ++m)
+        {
+            CHECK(std::abs(value[m] - vEnd[m]) <= 1e-12 * (1.0 + std::abs(vEnd[m])));
+            CHECK(std::abs(slope[m] - dEnd[m]) * step <= 1e-11 * (1.0 + std::abs(vEnd[m])));
+        }
+        // The same intervals mixed with another section's in one call (the processor lays
+        // out several sections' intervals together): the same cubics, bit for bit, and each
+        // section ends on its own last knot.
+        if (count < 8)
+        {
+            const GlidePath other(toNatural(toSvf(db.sections[0])),
+                                  toNatural(toSvf(da.sections[0])));
+            double va[8], sa[8], vb[8] = {}, sb[8] = {};
+            std::copy(value0, value0 + 8, va);
+            std::copy(slope0, slope0 + 8, sa);
+            other.foldedAt(0.25, vb, sb);
+            const double vb0[6] = {vb[0], vb[1], vb[2], vb[3], vb[4], vb[5]};
+            const double sb0[6] = {sb[0], sb[1], sb[2], sb[3], sb[4], sb[5]};
+            // Lanes: the other section's interval first, then these intervals.
+            std::vector<std::array<double, 32>> mixed(8), alone(1);
+            const GlidePath* mp[8] = {&other};
+            double ms[8] = {0.5}, md[8] = {0.001};
+            int ml[8] = {step};
+            double *mv[8] = {vb}, *msl[8] = {sb}, *mc[8] = {mixed[0].data()};
+            for (int i = 0; i < count; ++i)
+            {
+                mp[i + 1] = &path;
+                ms[i + 1] = s[i];
+                md[i + 1] = dsdn[i];
+                ml[i + 1] = length[i];
+                mv[i + 1] = va;
+                msl[i + 1] = sa;
+                mc[i + 1] = mixed[static_cast<std::size_t>(i + 1)].data();
+            }
+            glideSegments(mp, ms, md, ml, count + 1, mv, msl, mc);
+            for (int i = 0; i < count; ++i)
+                for (int k = 0; k < 32; ++k)
+                    CHECK(mixed[static_cast<std::size_t>(i + 1)][static_cast<std::size_t>(k)] ==
+                          cubic[i][k]);
+            for (int m = 0; m < 6; ++m)
+            {
+                CHECK(va[m] == value[m]);
+                CHECK(sa[m] == slope[m]);
+            }
+            // The other section's one interval, alone.
+            double vo[8] = {vb0[0], vb0[1], vb0[2], vb0[3], vb0[4], vb0[5]};
+            double so[8] = {sb0[0], sb0[1], sb0[2], sb0[3], sb0[4], sb0[5]};
+            double *ov[1] = {vo}, *os[1] = {so}, *oc[1] = {alone[0].data()};
+            const GlidePath* op[1] = {&other};
+            glideSegments(op, ms, md, ml, 1, ov, os, oc);
+            for (int k = 0; k < 32; ++k)
+                CHECK(alone[0][static_cast<std::size_t>(k)] ==
+                      mixed[0][static_cast<std::size_t>(k)]);
+            for (int m = 0; m < 6; ++m)
+                CHECK((vo[m] == vb[m] && so[m] == sb[m]));
+        }
+        ++checked;
+    }
+    CHECK(checked > 80);
+}
+
 TEST_CASE("smoothing: the section form's state norm never grows under per-sample modulation",
           "[smoothing]")
 {
