@@ -3,6 +3,9 @@
 #include "FactoryPresets.h"
 #include "PluginProcessor.h"
 
+#include <cmath>
+#include <vector>
+
 namespace kerf
 {
 
@@ -255,31 +258,81 @@ void PresetBar::refresh()
     protectionLabel.setHelpText(tip);
 }
 
+int PresetBar::preferredHeight(int width) noexcept
+{
+    return width >= kOneLineWidth ? kLineHeight : 2 * kLineHeight - 4;
+}
+
+namespace
+{
+struct Slot
+{
+    juce::Component* c;
+    int width; // wanted; 0 = takes what is left
+};
+
+/// Places slots left to right on a line: the flexible one (width 0) takes what the others
+/// leave, at least `minFlexible`; when even that does not fit, every slot shrinks in
+/// proportion, so nothing leaves the line.
+void placeSlots(juce::Rectangle<int> line, const std::vector<Slot>& slots, int minFlexible)
+{
+    constexpr int gap = 4;
+    int fixed = 0;
+    bool flexible = false;
+    for (const auto& slot : slots)
+    {
+        fixed += slot.width + gap;
+        flexible = flexible || slot.width == 0;
+    }
+    const int left = line.getWidth() - fixed;
+    const int flexWidth = flexible ? juce::jmax(minFlexible, left) : 0;
+    const int total = fixed + flexWidth;
+    const double scale =
+        total > line.getWidth() && total > 0 ? line.getWidth() / static_cast<double>(total) : 1.0;
+    for (const auto& slot : slots)
+    {
+        const int w = slot.width == 0 ? flexWidth : slot.width;
+        slot.c->setBounds(line.removeFromLeft(static_cast<int>(std::floor(w * scale))));
+        line.removeFromLeft(static_cast<int>(std::floor(gap * scale)));
+    }
+}
+} // namespace
+
 void PresetBar::resized()
 {
-    auto row = getLocalBounds().reduced(4);
-    for (auto* b : {&undoButton, &redoButton, &compareButton})
-    {
-        b->setBounds(row.removeFromLeft(64));
-        row.removeFromLeft(4);
-    }
-    flatButton.setBounds(row.removeFromRight(76));
-    row.removeFromRight(4);
-    protectionLabel.setBounds(row.removeFromRight(116));
-    row.removeFromRight(6);
-    row.removeFromLeft(6);
-    presetBox.setBounds(row.removeFromLeft(juce::jmin(240, row.getWidth() / 2)));
-    row.removeFromLeft(4);
+    // One line when wide enough: the session buttons, the preset box and its actions, the
+    // status line, the protection indicator and All flat. Narrower, the preset box and its
+    // actions take a second line.
+    auto area = getLocalBounds().reduced(4, 2);
+    std::vector<Slot> presetSlots{{&presetBox, 0}};
     if (nameField.isVisible())
+        presetSlots.push_back({&nameField, 150});
+    presetSlots.push_back({&saveButton, 72});
+    presetSlots.push_back({&deleteButton, 58});
+    const std::vector<Slot> session{{&undoButton, 52}, {&redoButton, 52}, {&compareButton, 58}};
+    const std::vector<Slot> right{{&protectionLabel, 108}, {&flatButton, 68}};
+    if (getHeight() >= 2 * kLineHeight - 4)
     {
-        nameField.setBounds(row.removeFromLeft(150));
-        row.removeFromLeft(4);
+        auto first = area.removeFromTop(area.getHeight() / 2);
+        std::vector<Slot> line = session;
+        line.push_back({&statusLabel, 0});
+        line.insert(line.end(), right.begin(), right.end());
+        placeSlots(first.reduced(0, 2), line, 0);
+        placeSlots(area.reduced(0, 2), presetSlots, 120);
+        return;
     }
-    saveButton.setBounds(row.removeFromLeft(76));
-    row.removeFromLeft(4);
-    deleteButton.setBounds(row.removeFromLeft(60));
-    row.removeFromLeft(6);
-    statusLabel.setBounds(row);
+    std::vector<Slot> line = session;
+    line.insert(line.end(), presetSlots.begin(), presetSlots.end());
+    line.push_back({&statusLabel, 0});
+    line.insert(line.end(), right.begin(), right.end());
+    // The preset box takes 140 to 260 px of what the others leave; the status line the rest.
+    int others = 0;
+    for (const auto& slot : line)
+        others += slot.width + 4;
+    for (auto& slot : line)
+        if (slot.c == &presetBox)
+            slot.width = juce::jlimit(140, 260, area.getWidth() - others);
+    placeSlots(area.reduced(0, 2), line, 0);
 }
 
 std::unique_ptr<juce::AccessibilityHandler> PresetBar::createAccessibilityHandler()

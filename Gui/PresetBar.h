@@ -43,6 +43,12 @@ public:
     /// The status line (the last save/delete/load result).
     juce::String status() const { return statusLabel.getText(); }
 
+    /// Below this width the bar takes two lines: session buttons, status and indicator
+    /// above, the preset box and its actions below. Heights in px.
+    static constexpr int kOneLineWidth = 650, kLineHeight = 34;
+    /// The height the bar wants at a width: one line, or two below kOneLineWidth.
+    static int preferredHeight(int width) noexcept;
+
     void resized() override;
     void paint(juce::Graphics& g) override;
     std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override;

@@ -2,6 +2,7 @@
 
 #include "Chain.h"
 #include "NotePitch.h"
+#include "ParameterPanel.h"
 #include "Parameters.h"
 #include "SectionHandles.h"
 
@@ -191,20 +192,18 @@ protected:
         int width = 100;
     };
 
-    juce::ToggleButton& addToggle(const juce::String& id, const juce::String& title,
-                                  const juce::String& tip)
+    juce::ToggleButton& addToggle(const juce::String& id, const juce::String& title)
     {
         auto b = std::make_unique<juce::ToggleButton>();
         b->setButtonText({});
         auto& ref = *b;
         if (auto* p = state.getParameter(id))
             buttonAttachments.push_back(std::make_unique<juce::ButtonParameterAttachment>(*p, ref));
-        own(std::move(b), id, title, tip);
+        own(std::move(b), id, title, parameterTooltip(id));
         return ref;
     }
 
-    juce::ComboBox& addChoice(const juce::String& id, const juce::String& title,
-                              const juce::String& tip)
+    juce::ComboBox& addChoice(const juce::String& id, const juce::String& title)
     {
         auto box = std::make_unique<juce::ComboBox>();
         auto& ref = *box;
@@ -213,12 +212,11 @@ protected:
             box->addItemList(p->choices, 1);
             boxAttachments.push_back(std::make_unique<juce::ComboBoxParameterAttachment>(*p, ref));
         }
-        own(std::move(box), id, title, tip);
+        own(std::move(box), id, title, parameterTooltip(id));
         return ref;
     }
 
-    juce::Slider& addSlider(const juce::String& id, const juce::String& title,
-                            const juce::String& tip)
+    juce::Slider& addSlider(const juce::String& id, const juce::String& title)
     {
         auto s = std::make_unique<StepSlider>();
         auto& ref = *s;
@@ -231,7 +229,7 @@ protected:
             s->setDoubleClickReturnValue(true, p->convertFrom0to1(p->getDefaultValue()));
             sliderAttachments.push_back(std::make_unique<juce::SliderParameterAttachment>(*p, ref));
         }
-        own(std::move(s), id, title, tip);
+        own(std::move(s), id, title, parameterTooltip(id));
         return ref;
     }
 
@@ -337,37 +335,16 @@ public:
         name.setText(juce::String(sl + 1), juce::dontSendNotification);
         setTitle(n);
         setTooltip(n + ": click to select it (its handle on the response display too)");
-        on = field(addToggle(ids::slotOn(sl), n + " on",
-                             "Switches section " + juce::String(sl + 1) + " on or off"),
-                   {}, 26);
-        type = field(addChoice(ids::slotType(sl), n + " type",
-                               "The filter type: peaking, shelves, high-/low-pass, notch, "
-                               "band-pass, all-pass or tilt"),
-                     {}, 112);
-        chan = field(addChoice(ids::slotChan(sl), n + " channels",
-                               "Which signal it filters: both channels, left, right, mid or side"),
-                     "ch", 74);
-        design = field(addChoice(ids::slotDesign(sl), n + " design",
-                                 "Accurate: matched to the analog prototype up to Nyquist; "
-                                 "bilinear: the classic prewarped design"),
-                       "design", 92);
-        align = field(addChoice(ids::slotAlign(sl), n + " alignment",
-                                "Butterworth or Linkwitz-Riley slope, or a resonant order-2 "
-                                "corner shaped by Q"),
-                      "align", 128);
-        freq = field(addSlider(ids::slotFreq(sl), n + " frequency",
-                               "Centre or corner frequency; type a value such as 2.5k"),
-                     "freq", 96);
-        gain = field(
-            addSlider(ids::slotGain(sl), n + " gain", "Boost or cut in dB at the centre or shelf"),
-            "gain", 86);
-        q = field(addSlider(ids::slotQ(sl), n + " Q", "Q: higher is narrower"), "Q", 70);
-        slope = field(addSlider(ids::slotSlope(sl), n + " shelf slope",
-                                "Shelf slope: 1 is the steepest without overshoot"),
-                      "slope", 70);
-        order = field(
-            addSlider(ids::slotOrder(sl), n + " order", "Filter order: 6 dB per octave for each"),
-            "order", 116);
+        on = field(addToggle(ids::slotOn(sl), n + " on"), {}, 26);
+        type = field(addChoice(ids::slotType(sl), n + " type"), {}, 112);
+        chan = field(addChoice(ids::slotChan(sl), n + " channels"), "ch", 74);
+        design = field(addChoice(ids::slotDesign(sl), n + " design"), "design", 92);
+        align = field(addChoice(ids::slotAlign(sl), n + " alignment"), "align", 128);
+        freq = field(addSlider(ids::slotFreq(sl), n + " frequency"), "freq", 96);
+        gain = field(addSlider(ids::slotGain(sl), n + " gain"), "gain", 86);
+        q = field(addSlider(ids::slotQ(sl), n + " Q"), "Q", 70);
+        slope = field(addSlider(ids::slotSlope(sl), n + " shelf slope"), "slope", 70);
+        order = field(addSlider(ids::slotOrder(sl), n + " order"), "order", 116);
     }
 
     bool expanded() const override { return value(ids::slotOn(slot)) > 0.5f; }
@@ -435,31 +412,14 @@ public:
         name.setText("C" + juce::String(sl + 1), juce::dontSendNotification);
         setTitle(n);
         setTooltip(n + ": click to select it");
-        on = field(addToggle(ids::comb(sl, "on"), n + " on", "Switches " + n + " on or off"), {},
-                   26);
-        mode = field(addChoice(ids::comb(sl, "mode"), n + " mode",
-                               "Feedforward: evenly spaced notches; feedback: evenly spaced "
-                               "resonant peaks"),
-                     {}, 112);
-        tuning = field(addChoice(ids::comb(sl, "tuning"), n + " tuning",
-                                 "Set the comb by its delay, or by the pitch of its "
-                                 "fundamental (one over the delay)"),
-                       "by", 74);
-        gain = field(addSlider(ids::comb(sl, "gain"), n + " gain",
-                               "The delayed path's gain; feedback is limited to +-0.995"),
-                     "gain", 80);
-        damp = field(addSlider(ids::comb(sl, "damp"), n + " damping",
-                               "Low-pass in the delayed path; at the top it is off"),
-                     "damp", 90);
-        mix = field(addSlider(ids::comb(sl, "mix"), n + " dry/wet",
-                              "Dry/wet: 0 is the input alone, 1 the comb alone"),
-                    "dry/wet", 70);
-        delay = field(
-            addSlider(ids::comb(sl, "delay"), n + " delay", "The comb's delay in milliseconds"),
-            "delay", 100);
-        pitch = field(addSlider(ids::comb(sl, "pitch"), n + " pitch",
-                                "The fundamental the comb is tuned to, in Hz"),
-                      "pitch", 96);
+        on = field(addToggle(ids::comb(sl, "on"), n + " on"), {}, 26);
+        mode = field(addChoice(ids::comb(sl, "mode"), n + " mode"), {}, 112);
+        tuning = field(addChoice(ids::comb(sl, "tuning"), n + " tuning"), "by", 74);
+        gain = field(addSlider(ids::comb(sl, "gain"), n + " gain"), "gain", 80);
+        damp = field(addSlider(ids::comb(sl, "damp"), n + " damping"), "damp", 90);
+        mix = field(addSlider(ids::comb(sl, "mix"), n + " dry/wet"), "dry/wet", 70);
+        delay = field(addSlider(ids::comb(sl, "delay"), n + " delay"), "delay", 100);
+        pitch = field(addSlider(ids::comb(sl, "pitch"), n + " pitch"), "pitch", 96);
 
         // Note controls: not parameters themselves; each change sets the pitch parameter
         // as one gesture.
@@ -638,26 +598,16 @@ public:
         name.setText("E", juce::dontSendNotification);
         setTitle("Echo cancel");
         setTooltip("Echo cancellation: click to select it");
-        on = field(addToggle(ids::echoOn, "Echo cancel on",
-                             "Switches the echo cancellation on or off (it acts when a "
-                             "reflection has a gain)"),
-                   {}, 26);
-        method = field(addChoice(ids::echoMethod, "Echo cancel method",
-                                 "Exact: the recursive inverse; series: a finite number of "
-                                 "correction terms"),
-                       {}, 112);
-        terms = field(addSlider(ids::echoTerms, "Echo cancel series terms",
-                                "How many correction terms the series method uses"),
-                      "terms", 70);
+        on = field(addToggle(ids::echoOn, "Echo cancel on"), {}, 26);
+        method = field(addChoice(ids::echoMethod, "Echo cancel method"), {}, 112);
+        terms = field(addSlider(ids::echoTerms, "Echo cancel series terms"), "terms", 70);
         for (int k = 0; k < dsp::kMaxEchoReflections; ++k)
         {
             const juce::String r = "Reflection " + juce::String(k + 1);
-            reflections.push_back(field(addSlider(ids::echoDelay(k), "Echo " + r + " delay",
-                                                  r + ": its delay after the direct sound, in ms"),
+            reflections.push_back(field(addSlider(ids::echoDelay(k), "Echo " + r + " delay"),
                                         "r" + juce::String(k + 1) + " delay", 96));
-            reflections.push_back(field(addSlider(ids::echoGain(k), "Echo " + r + " gain",
-                                                  r + ": its gain (0 leaves it out)"),
-                                        "gain", 78));
+            reflections.push_back(
+                field(addSlider(ids::echoGain(k), "Echo " + r + " gain"), "gain", 78));
         }
     }
 
@@ -694,8 +644,8 @@ public:
         {
             const int lineIndex = 1 + static_cast<int>(k / 4);
             auto l = lineOf(area, lineIndex).withTrimmedLeft(26);
-            if ((k / 2) % 2 == 1)
-                l = l.withTrimmedLeft(l.getWidth() / 2);
+            l = (k / 2) % 2 == 1 ? l.withTrimmedLeft(l.getWidth() / 2)
+                                 : l.withWidth(l.getWidth() / 2 - 6);
             placeLine(l, {&reflections[k], &reflections[k + 1]});
         }
     }
@@ -714,21 +664,11 @@ public:
         name.setText("Out", juce::dontSendNotification);
         setTitle("Output");
         setTooltip("The output: gain, peak protection, glide time and bypass");
-        gain = field(addSlider(ids::outputGain, "Output gain", "Gain after the whole chain, in dB"),
-                     "gain", 84);
-        protect = field(addToggle(ids::protectOn, "Output protection",
-                                  "Keeps output peaks at or below the ceiling"),
-                        "protect", 26);
-        ceiling = field(addSlider(ids::protectCeiling, "Protection ceiling",
-                                  "The highest output peak the protection lets through, dBFS"),
-                        "ceiling", 84);
-        glide = field(addSlider(ids::glideMs, "Glide time",
-                                "How long every change glides or crossfades, in ms"),
-                      "glide", 84);
-        bypass = field(addToggle(ids::bypass, "Bypass",
-                                 "Bypass: crossfades to the untouched input (the host's "
-                                 "bypass switch)"),
-                       "bypass", 26);
+        gain = field(addSlider(ids::outputGain, "Output gain"), "gain", 84);
+        protect = field(addToggle(ids::protectOn, "Output protection"), "protect", 26);
+        ceiling = field(addSlider(ids::protectCeiling, "Protection ceiling"), "ceiling", 84);
+        glide = field(addSlider(ids::glideMs, "Glide time"), "glide", 84);
+        bypass = field(addToggle(ids::bypass, "Bypass"), "bypass", 26);
     }
     int shapeKey() const override { return 1; }
     int preferredHeight() const override { return kLineHeight + 6; }
