@@ -131,8 +131,6 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
     channelCount = std::clamp(numChannels, 1, kMaxChannels);
     blockSize = std::max(maxBlockSize, 64);
     scratch.assign(static_cast<std::size_t>(blockSize) * kMaxChannels, 0.0);
-    runPool.assign(static_cast<std::size_t>(kMaxSections) * kRunSegments, GlideSegment{});
-    knotJobs.assign(static_cast<std::size_t>(kMaxSections) * (kRunSegments + 1), KnotJob{});
     for (auto& e : echoPool)
         e.prepare(sampleRateHz, blockSize, channelCount);
     for (auto& c : combPool)
@@ -322,9 +320,7 @@ void ChainProcessor::freezeGlides(const Voice& v) noexcept
         const auto i = static_cast<std::size_t>(idx);
         // Stay where the section is: at a knot on its glide path, between knots on its
         // running cubic, or still.
-        // (At a knot inside a run, the running cubic starts here: the path's values, as at
-        // the end of one.)
-        if (glides[i].on && clock < glides[i].knotEnd && clock != rampOrigin[i])
+        if (glides[i].on && clock < glides[i].knotEnd)
         {
             double v[6];
             foldedNow(idx, v);
@@ -335,7 +331,6 @@ void ChainProcessor::freezeGlides(const Voice& v) noexcept
         else
             setSectionCoeffs(idx, coeffs[i]);
         glides[i].on = false;
-        clearRun(idx);
     }
 }
 
@@ -347,9 +342,6 @@ void ChainProcessor::installNow(const ChainSpec& chain) noexcept
         b = false;
     for (auto& g : glides)
         g.on = false;
-    runHead.fill(0);
-    runCount.fill(0);
-    numRunSlots = 0;
     const int n = std::min(chain.numStages, kMaxStages);
     for (int i = 0; i < n; ++i)
     {
@@ -428,7 +420,6 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         g.step = glideKnotSamples(len);
         g.knotEnd = clock; // the first segment starts at this update
         g.on = true;
-        clearRun(idx); // knot intervals laid out for the old path are dropped
     }
     st.spec = spec;
 }
@@ -478,7 +469,7 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
         startCrossfade(stage, spec, allowed);
 }
 
-void ChainProcessor::update(long long horizon) noexcept
+void ChainProcessor::update() noexcept
 {
     if (hasPending)
     {
@@ -501,24 +492,18 @@ void ChainProcessor::update(long long horizon) noexcept
         numStages = all;
         targetStages = n;
     }
-    int numJobs = 0;
-    numRunSlots = 0;
+    struct Knot
+    {
+        int slot;
+        double dsdn; // ds/dn at the segment's end
+        int length;  // samples to the segment's end
+    };
+    std::array<Knot, kMaxSectionSlots> knots;
+    int numKnots = 0;
     movingStages = 0;
     anyActive = false;
     everyUpdate = false;
     nextKnot = std::numeric_limits<long long>::max();
-    // A knot interval of section idx from `from` to its next knot (or the glide's end).
-    auto addJob = [this, &numJobs](int idx, long long from, double* cubic)
-    {
-        Glide& g = glides[static_cast<std::size_t>(idx)];
-        const long long end = g.start + g.len;
-        const long long e = std::min(from + g.step, end);
-        const double t = static_cast<double>(e - g.start) * g.invLen;
-        knotJobs[static_cast<std::size_t>(numJobs++)] = {
-            idx,      static_cast<int>(e - from),    e >= end,
-            g.sAt(e), transitionSlope(t) * g.invLen, cubic};
-        g.knotEnd = e;
-    };
     for (int i = 0; i < numStages; ++i)
     {
         Stage& st = stages[static_cast<std::size_t>(i)];
@@ -546,90 +531,65 @@ void ChainProcessor::update(long long horizon) noexcept
                     // Arrived: exactly the designed target from here on.
                     g.on = false;
                     setSectionCoeffs(idx, g.target);
-                    clearRun(idx);
                     continue;
                 }
                 gliding = true;
-                runSlots[static_cast<std::size_t>(numRunSlots++)] = idx;
+                if (clock < g.knotEnd)
+                {
+                    nextKnot = std::min(nextKnot, g.knotEnd); // between knots: runs on
+                    continue;
+                }
+                // A knot: the next segment ends on the path's exact values and slope one
+                // knot interval on (computed below, four sections at a time).
+                const long long e = std::min(clock + g.step, end);
+                const int length = static_cast<int>(e - clock);
+                g.knotEnd = e;
+                nextKnot = std::min(nextKnot, e);
+                rampOrigin[u] = clock;
+                if (e < end)
+                {
+                    const double t = static_cast<double>(e - g.start) * g.invLen;
+                    knots[numKnots++] = {idx, transitionSlope(t) * g.invLen, length};
+                }
+                else
+                {
+                    alignas(16) double endValues[8] = {};
+                    alignas(16) const double still[8] = {};
+                    foldCoeffs(g.target, endValues);
+                    startCubic(idx, endValues, still, length);
+                }
+                ramping[u] = true;
             }
         if (st.fading || st.queued || gliding)
             ++movingStages;
         everyUpdate = everyUpdate || st.fading || st.queued;
         anyActive = anyActive || st.fading || st.live.kind != Voice::Kind::none;
     }
-    // Only glides move: lay out every gliding section's knot intervals up to the horizon
-    // (a run), so that the processor next stops where the first of them ends.
-    for (int r = 0; r < numRunSlots; ++r)
+    // The knots' values and slopes, four sections at a time, and their segments' cubics.
+    for (int b = 0; b < numKnots; b += 4)
     {
-        const int idx = runSlots[static_cast<std::size_t>(r)];
-        const auto u = static_cast<std::size_t>(idx);
-        Glide& g = glides[u];
-        GlideSegment* room = runRoom(idx);
-        if (clock >= g.knotEnd)
+        const int n = std::min(4, numKnots - b);
+        const GlidePath* paths[4];
+        double s[4], end[4][6], endSlope[4][6];
+        for (int i = 0; i < n; ++i)
         {
-            // A knot: the next segment ends on the path's exact values and slope one knot
-            // interval on (computed below). Otherwise the section is between knots: runs on.
-            clearRun(idx);
-            rampOrigin[u] = clock;
-            addJob(idx, clock, rampCubic[u].c[0].v);
-            ramping[u] = true;
+            const Glide& g =
+                glides[static_cast<std::size_t>(knots[static_cast<std::size_t>(b + i)].slot)];
+            paths[i] = &g.path;
+            s[i] = g.sAt(g.knotEnd);
         }
-        // Intervals laid out before and not yet reached move to the front of the room.
-        if (runHead[u] > 0)
+        foldedAtBatch(paths, s, n, end, endSlope);
+        for (int i = 0; i < n; ++i)
         {
-            const int keep = runCount[u] - runHead[u];
-            for (int k = 0; k < keep; ++k)
-                room[k] = room[runHead[u] + k];
-            runHead[u] = 0;
-            runCount[u] = keep;
-        }
-        if (!everyUpdate)
-        {
-            const long long stop = std::min(horizon, g.start + g.len);
-            while (g.knotEnd < stop && runCount[u] < kRunSegments)
+            const Knot& kn = knots[static_cast<std::size_t>(b + i)];
+            alignas(16) double e[8] = {}, es[8] = {};
+            for (int m = 0; m < 6; ++m)
             {
-                GlideSegment& seg = room[runCount[u]++];
-                seg.origin = g.knotEnd;
-                addJob(idx, g.knotEnd, seg.c);
+                e[m] = end[i][m];
+                es[m] = endSlope[i][m] * kn.dsdn;
             }
+            startCubic(kn.slot, e, es, kn.length);
         }
-        nextKnot = std::min(nextKnot, g.knotEnd);
-    }
-    // The knots' values and slopes and their segments' cubics, eight intervals at a time
-    // (a section's consecutive intervals in order: each starts where the one before ended).
-    for (int b = 0; b < numJobs;)
-    {
-        const KnotJob& first = knotJobs[static_cast<std::size_t>(b)];
-        if (first.last)
-        {
-            // The glide's end: its designed target, at rest.
-            alignas(16) double e[8] = {};
-            alignas(16) const double still[8] = {};
-            foldCoeffs(glides[static_cast<std::size_t>(first.slot)].target, e);
-            startCubic(first.slot, e, still, first.length, first.cubic);
-            ++b;
-            continue;
-        }
-        const GlidePath* paths[8];
-        double s[8], dsdn[8];
-        int length[8];
-        double *value[8], *slope[8], *cubic[8];
-        int n = 0;
-        for (; n < 8 && b + n < numJobs && !knotJobs[static_cast<std::size_t>(b + n)].last; ++n)
-        {
-            const KnotJob& job = knotJobs[static_cast<std::size_t>(b + n)];
-            const auto u = static_cast<std::size_t>(job.slot);
-            paths[n] = &glides[u].path;
-            s[n] = job.s;
-            dsdn[n] = job.dsdn;
-            length[n] = job.length;
-            value[n] = rampKnot[u].v;
-            slope[n] = glides[u].slope;
-            cubic[n] = job.cubic;
-            ramping[u] = true;
-        }
-        glideSegments(paths, s, dsdn, length, n, value, slope, cubic);
-        b += n;
     }
     // Stages the chain no longer has are dropped once they have faded out.
     while (numStages > targetStages)
@@ -641,34 +601,17 @@ void ChainProcessor::update(long long horizon) noexcept
     }
 }
 
-void ChainProcessor::startCubic(int idx, const double end[8], const double endSlope[8], int length,
-                                double* cubic) noexcept
+void ChainProcessor::startCubic(int idx, const double end[8], const double endSlope[8],
+                                int length) noexcept
 {
     // The Hermite cubic from here (exact values, the slope the last knot found) to the
     // next knot: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
     const double K = length;
-    // Powers of two in the usual case, where these inverses are exact; knot intervals are
-    // whole update intervals up to kMaxKnotSamples, whose inverses are tabled (the same
-    // values, without two divisions per interval).
-    constexpr int kTabled = kMaxKnotSamples / kUpdateIntervalSamples;
-    static constexpr auto inverses = []
-    {
-        std::array<std::array<double, 2>, kTabled + 1> t{};
-        for (int i = 1; i <= kTabled; ++i)
-        {
-            const double k = static_cast<double>(i * kUpdateIntervalSamples);
-            t[static_cast<std::size_t>(i)] = {1.0 / (k * k), 1.0 / (k * k) / k};
-        }
-        return t;
-    }();
-    const bool tabled = length % kUpdateIntervalSamples == 0 && length <= kMaxKnotSamples;
-    const double inv2 = tabled
-                            ? inverses[static_cast<std::size_t>(length / kUpdateIntervalSamples)][0]
-                            : 1.0 / (K * K);
-    const double inv3 =
-        tabled ? inverses[static_cast<std::size_t>(length / kUpdateIntervalSamples)][1] : inv2 / K;
+    // Powers of two in the usual case, where these inverses are exact.
+    const double inv2 = 1.0 / (K * K), inv3 = inv2 / K;
     const auto u = static_cast<std::size_t>(idx);
     Glide& g = glides[u];
+    RampCubic& q = rampCubic[u];
     // All eight lanes (the last two are zeros throughout), in local copies so that the
     // loops vectorise.
     alignas(32) double b[8], s0[8], c2[8], c3[8];
@@ -685,40 +628,14 @@ void ChainProcessor::startCubic(int idx, const double end[8], const double endSl
     }
     for (int m = 0; m < 8; ++m)
     {
-        cubic[m] = b[m];
-        cubic[8 + m] = s0[m];
-        cubic[16 + m] = c2[m];
-        cubic[24 + m] = c3[m];
+        q.c[0].v[m] = b[m];
+        q.c[1].v[m] = s0[m];
+        q.c[2].v[m] = c2[m];
+        q.c[3].v[m] = c3[m];
         rampKnot[u].v[m] = end[m];
         g.slope[m] = endSlope[m];
     }
     ramping[u] = true;
-}
-
-void ChainProcessor::advanceRuns(long long now) noexcept
-{
-    for (int r = 0; r < numRunSlots; ++r)
-    {
-        const int idx = runSlots[static_cast<std::size_t>(r)];
-        const auto u = static_cast<std::size_t>(idx);
-        if (runHead[u] >= runCount[u])
-            continue;
-        const GlideSegment* room = runRoom(idx);
-        int head = runHead[u];
-        while (head < runCount[u] && room[head].origin <= now)
-            ++head;
-        if (head == runHead[u])
-            continue;
-        // The last interval begun is the one running now.
-        const GlideSegment& seg = room[head - 1];
-        for (int o = 0; o < 4; ++o)
-            for (int m = 0; m < 8; ++m)
-                rampCubic[u].c[o].v[m] = seg.c[8 * o + m];
-        rampOrigin[u] = seg.origin;
-        runHead[u] = head;
-        if (head >= runCount[u])
-            clearRun(idx);
-    }
 }
 
 void ChainProcessor::foldedNow(int idx, double out[6]) const noexcept
@@ -751,26 +668,15 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
         {
             // Gliding: the folded form with its values on the section's cubic (the stereo
             // kernels' arithmetic, one lane).
-            // The running cubic, then the knot intervals laid out after it (a run).
-            const double* q = rampCubic[idx].c[0].v;
-            double n0 = static_cast<double>(clock - rampOrigin[idx]);
-            const GlideSegment* next = runRoom(j) + runHead[idx];
-            int left = runCount[idx] - runHead[idx];
-            long long switchAt = left > 0 ? next->origin - clock : len;
+            const RampCubic& q = rampCubic[idx];
+            const double n0 = static_cast<double>(clock - rampOrigin[idx]);
             double ic1 = s.ic1eq, ic2 = s.ic2eq;
             for (int n = 0; n < len; ++n)
             {
-                if (n == switchAt)
-                {
-                    q = next->c;
-                    n0 = static_cast<double>(clock - next->origin);
-                    ++next;
-                    switchAt = --left > 0 ? next->origin - clock : len;
-                }
                 const double t = n0 + n;
                 double c[6];
                 for (int m = 0; m < 6; ++m)
-                    c[m] = q[m] + t * (q[8 + m] + t * (q[16 + m] + t * q[24 + m]));
+                    c[m] = q.c[0].v[m] + t * (q.c[1].v[m] + t * (q.c[2].v[m] + t * q.c[3].v[m]));
                 const double v0 = x[n];
                 const double v1 = c[1] * (v0 - ic2) + c[0] * ic1;
                 const double v2 = c[2] * v1 + ic2;
@@ -799,64 +705,16 @@ struct alignas(32) GlidePair
 {
     double q[4][12], s1[4], s2[4];
     double at[4]; // sample index of the lanes' cubics at step 0 of the kernel
-    // In a run: each section's next knot interval, how many follow, the kernel step where
-    // it starts (the block's sample plus the section's skew), and the earlier of the two.
-    const GlideSegment* next[2];
-    int left[2];
-    long long switchAt[2];
-    long long nextSwitch;
 };
-
-#if defined(__x86_64__) && defined(__GNUC__)
-/// A pair's sections that start a knot interval at step t take its cubic into their lanes
-/// (section 2p + h: lanes h and h + 2 of each group). `clock0`: the block's first sample.
-__attribute__((target("avx,fma"))) void switchPairSegments(GlidePair& g, long long t, int p,
-                                                           long long clock0) noexcept
-{
-    for (int h = 0; h < 2; ++h)
-    {
-        if (g.switchAt[h] != t)
-            continue;
-        const double* c = g.next[h]->c;
-        for (int o = 0; o < 4; ++o)
-            for (int grp = 0; grp < 3; ++grp)
-            {
-                g.q[o][4 * grp + h] = c[8 * o + 2 * grp];
-                g.q[o][4 * grp + 2 + h] = c[8 * o + 2 * grp + 1];
-            }
-        const long long skew = 2 * p + h;
-        g.at[h] = g.at[h + 2] = static_cast<double>(clock0 - g.next[h]->origin - skew);
-        ++g.next[h];
-        g.switchAt[h] = --g.left[h] > 0 ? g.next[h]->origin - clock0 + skew
-                                        : std::numeric_limits<long long>::max();
-    }
-    g.nextSwitch = std::min(g.switchAt[0], g.switchAt[1]);
-}
-#endif
 
 /// The stereo kernels' view of one section: its coefficients (lanes while still, its cubic
 /// while gliding) and its state lanes.
 struct StretchSection
 {
-    const double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
-    double* state;        // ic1, ic2 pairs
-    double n0;            // gliding: samples since the cubic's start at the block's first sample
-    // Gliding in a run: the knot intervals that follow (`left` of them), the sample of the
-    // block where the next starts, and the clock at the block's first sample.
-    const GlideSegment* next;
-    int left;
-    long long switchAt;
-    long long clock0;
+    double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
+    double* state;  // ic1, ic2 pairs
+    double n0;      // gliding: samples since the cubic's start at the block's first sample
 };
-
-/// A gliding section of a run at the start of its next knot interval.
-inline void nextSegment(StretchSection& s) noexcept
-{
-    s.coeffs = s.next->c;
-    s.n0 = static_cast<double>(s.clock0 - s.next->origin);
-    ++s.next;
-    s.switchAt = --s.left > 0 ? s.next->origin - s.clock0 : std::numeric_limits<long long>::max();
-}
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
 /// v1 = a1 ic1 + a2 (v0 - ic2), v2 = ic2 + g v1, ic1 <- 2 v1 - ic1, ic2 <- 2 v2 - ic2,
@@ -878,11 +736,6 @@ inline void nextSegment(StretchSection& s) noexcept
 #define KERF_NO_PREPARE
 /// Gliding sections: the coefficients at this sample from the section's cubic (Horner).
 #define KERF_CUBIC_PREPARE                                                                         \
-    if (n == sections[j].switchAt)                                                                 \
-    {                                                                                              \
-        nextSegment(sections[j]);                                                                  \
-        c = sections[j].coeffs;                                                                    \
-    }                                                                                              \
     __m128d cf[6];                                                                                 \
     {                                                                                              \
         const __m128d nn = _mm_set1_pd(sections[j].n0 + n);                                        \
@@ -917,7 +770,7 @@ inline __m128d mulAdd(__m128d a, __m128d b, __m128d c) noexcept
         {                                                                                          \
             const int n = t - j;                                                                   \
             __m128d v = j == 0 ? _mm_set_pd(r[n], l[n]) : carry[j];                                \
-            const double* c = sections[j].coeffs;                                                  \
+            double* c = sections[j].coeffs;                                                        \
             double* st = sections[j].state;                                                        \
             PREPARE KERF_SECTION_STEP(MUL_ADD, COEF) if (j == last)                                \
             {                                                                                      \
@@ -936,7 +789,7 @@ void stretchKernel(const StretchSection* sections, int count, double* l, double*
 
 /// The kernel while sections glide: coefficients from each section's cubic at sample n0 + n
 /// of its segment (processors without FMA; the pair kernel below otherwise).
-void stretchKernelCubic(StretchSection* sections, int count, double* l, double* r, int len,
+void stretchKernelCubic(const StretchSection* sections, int count, double* l, double* r, int len,
                         __m128d* carry) noexcept
 {
     KERF_STRETCH_BODY(mulAdd, KERF_CUBIC_COEF, KERF_CUBIC_PREPARE)
@@ -966,7 +819,7 @@ __attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* s
 /// since each cubic's start, less the section's skew).
 __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
                                                            double* r, int len, double* cl,
-                                                           double* cr, long long clock0) noexcept
+                                                           double* cr) noexcept
 {
     const int last = 2 * pairs - 1;
     for (int j = 0; j <= 2 * pairs; ++j)
@@ -985,8 +838,6 @@ __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pai
         for (int p = pHigh; p >= pLow; --p)
         {
             GlidePair& g = w[p];
-            if (t == g.nextSwitch) // a section of the pair reaches its next knot interval
-                switchPairSegments(g, t, p, clock0);
             const __m256d nv = _mm256_add_pd(tv, _mm256_load_pd(g.at));
             __m256d grp[3];
             for (int k = 0; k < 3; ++k)
@@ -1065,7 +916,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
                                    int len) noexcept
 {
     // Lay the stretch out pair by pair, run the pair kernel, put the memories back.
-    static_assert(sizeof(GlidePair) <= sizeof(GlidePairRoom));
+    static_assert(sizeof(GlidePair) == sizeof(GlidePairRoom));
     const auto* list = static_cast<const StretchSection*>(sectionList);
     const int pairs = (count + 1) / 2;
     auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
@@ -1090,15 +941,6 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
             }
         g.at[0] = g.at[2] = list[j].n0 - static_cast<double>(j);
         g.at[1] = g.at[3] = (second ? list[j + 1].n0 : 0.0) - static_cast<double>(j + 1);
-        for (int h = 0; h < 2; ++h)
-        {
-            const bool real = h == 0 || second;
-            g.next[h] = real ? list[j + h].next : nullptr;
-            g.left[h] = real ? list[j + h].left : 0;
-            g.switchAt[h] = g.left[h] > 0 ? list[j + h].switchAt + j + h
-                                          : std::numeric_limits<long long>::max();
-        }
-        g.nextSwitch = std::min(g.switchAt[0], g.switchAt[1]);
         // Memories: ic1 = {left, right} of each section -> {left j, left j+1, right j, ...}.
         const double* sa = list[j].state;
         const double* sb = second ? list[j + 1].state : rest;
@@ -1110,7 +952,7 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         _mm_store_pd(g.s2 + 2, _mm_unpackhi_pd(a2, b2));
     }
     alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
-    pairCubicKernelFma(w, pairs, l, r, len, cl, cr, clock);
+    pairCubicKernelFma(w, pairs, l, r, len, cl, cr);
     for (int p = 0; p < pairs; ++p)
     {
         const GlidePair& g = w[p];
@@ -1143,13 +985,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         for (int j = v.first; j < v.first + v.count; ++j)
         {
             const auto u = static_cast<std::size_t>(j);
-            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1,
-                                                       pairState[u].ic1,
-                                                       0.0,
-                                                       nullptr,
-                                                       0,
-                                                       std::numeric_limits<long long>::max(),
-                                                       clock};
+            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1, 0.0};
             ramp = ramp || ramping[u];
         }
     }
@@ -1166,13 +1002,8 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
             for (int j = v.first; j < v.first + v.count; ++j, ++k)
             {
                 auto& item = list[static_cast<std::size_t>(k)];
-                const auto u = static_cast<std::size_t>(j);
-                item.coeffs = rampCubic[u].c[0].v;
-                item.n0 = static_cast<double>(clock - rampOrigin[u]);
-                item.left = runCount[u] - runHead[u];
-                item.next = runRoom(j) + runHead[u];
-                if (item.left > 0)
-                    item.switchAt = item.next->origin - clock;
+                item.coeffs = rampCubic[static_cast<std::size_t>(j)].c[0].v;
+                item.n0 = static_cast<double>(clock - rampOrigin[static_cast<std::size_t>(j)]);
             }
         }
     }
@@ -1600,7 +1431,7 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
         // Updates fall on update points: every one while a target waits or a crossfade runs,
         // otherwise only where some glide has a knot.
         if (isMoving() && clock % K == 0 && (hasPending || everyUpdate || clock >= nextKnot))
-            update(clock + std::min({numSamples - start, blockSize, kMaxRunSamples}));
+            update();
         int len = std::min(blockSize, numSamples - start);
         if (isMoving())
         {
@@ -1642,8 +1473,6 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
                 nonFinite.fetch_add(1, std::memory_order_relaxed);
             }
         }
-        if (numRunSlots > 0)
-            advanceRuns(clock + len);
         clock += len;
         start += len;
     }

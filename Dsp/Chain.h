@@ -126,15 +126,6 @@ using StageSections = DesignedSections;
 /// parametric section (echo_cancel), has none. Pure and allocation-free.
 StageSections designStage(const StageSpec& spec, double sampleRateHz) noexcept;
 
-/// One knot interval of a section's glide laid out ahead of time (ChainProcessor's runs):
-/// its Hermite cubic (c[8 o + m]: the coefficient of n^o for folded value m, as the kernels
-/// read it) and the clock where it starts (n = 0).
-struct alignas(32) GlideSegment
-{
-    double c[32];
-    long long origin;
-};
-
 /// Realtime processor of a ChainSpec. Lifecycle: prepare() (allocates) -> reset() ->
 /// setChain() / process() (never allocate, never lock).
 class ChainProcessor
@@ -269,16 +260,9 @@ private:
     void startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept;
     void startGlide(int stage, const StageSpec& spec) noexcept;
     void freezeGlides(const Voice& v) noexcept;
-    /// At every update point while something moves. Where nothing but glides moves, the
-    /// knot intervals of every gliding section up to `horizon` (the clock) are laid out at
-    /// once (a run), so the kernels go through their knots without stopping.
-    void update(long long horizon) noexcept;
-    /// Starts a segment's cubic (32 values, GlideSegment::c): from the section's last end
-    /// values and slope to these end values and slopes, six each then two zeros.
-    void startCubic(int idx, const double end[8], const double endSlope[8], int length,
-                    double* cubic) noexcept;
-    /// Moves every section with laid-out knot intervals on to the one running at `now`.
-    void advanceRuns(long long now) noexcept;
+    void update() noexcept; // at every update point while something moves
+    /// Starts a segment's cubic: end values and slopes, six each then two zeros.
+    void startCubic(int idx, const double end[8], const double endSlope[8], int length) noexcept;
     /// A gliding section's folded values at the current clock, from its running cubic.
     void foldedNow(int idx, double out[6]) const noexcept;
     void runFading(int stage, int numChannels, int len) noexcept;
@@ -311,43 +295,14 @@ private:
     long long nextKnot = 0;
     bool everyUpdate = false; // a crossfade or queued change: update at every update point
     // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
-    // 576-byte entry (with where each goes on to its next knot interval), laid out for one
-    // 256-bit register.
+    // 480-byte entry, laid out for one 256-bit register.
     struct alignas(32) GlidePairRoom
     {
-        double v[72];
+        double v[60];
     };
     std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
     void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
-    // Runs: the knot intervals laid out ahead, after each section's running one, kRunSegments
-    // at most per section (slot % kMaxSections picks its room in runPool: only the live
-    // instance of a stage glides); runHead/runCount: the next one and how many are there.
-    static constexpr int kMaxRunSamples = 512;
-    static constexpr int kRunSegments = kMaxRunSamples / kUpdateIntervalSamples;
-    std::vector<GlideSegment> runPool; // kMaxSections * kRunSegments, sized in prepare()
-    std::array<int, kMaxSectionSlots> runHead{}, runCount{};
-    std::array<int, kMaxSections> runSlots{}; // the sections with a run (numRunSlots)
-    int numRunSlots = 0;
-    /// A knot interval to compute (update): its section, where its cubic goes, the path's
-    /// position s and ds/dn at its end, its length; `last`: it ends the glide (on target).
-    struct KnotJob
-    {
-        int slot;
-        int length;
-        bool last;
-        double s, dsdn;
-        double* cubic;
-    };
-    std::vector<KnotJob> knotJobs; // kMaxSections * (kRunSegments + 1), sized in prepare()
-    GlideSegment* runRoom(int idx) noexcept
-    {
-        return runPool.data() + static_cast<std::size_t>(idx % kMaxSections) * kRunSegments;
-    }
-    void clearRun(int idx) noexcept
-    {
-        runHead[static_cast<std::size_t>(idx)] = runCount[static_cast<std::size_t>(idx)] = 0;
-    }
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()

@@ -183,31 +183,19 @@ void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k
 #if defined(__x86_64__) && defined(__GNUC__)
 /// e^x for four values (|x| < 700): x = n ln 2 + r with |r| <= ln 2 / 2 (Cody and Waite's
 /// two-part ln 2, fdlibm's constants, from memory), e^r by its Taylor series to r^12
-/// (truncation below 7e-15 relative) evaluated in Estrin's scheme (pairs of terms, then
-/// pairs of pairs with r^2, r^4, r^8: four dependent steps instead of twelve; common
-/// practice), times 2^n built in the exponent bits.
-__attribute__((target("avx,fma"))) inline __m256d exp4(__m256d x) noexcept
+/// (truncation below 7e-15 relative), times 2^n built in the exponent bits.
+__attribute__((target("avx,fma"))) __m256d exp4(__m256d x) noexcept
 {
     const __m256d n = _mm256_round_pd(_mm256_mul_pd(x, _mm256_set1_pd(1.4426950408889634)),
                                       _MM_FROUND_TO_NEAREST_INT | _MM_FROUND_NO_EXC);
     __m256d r = _mm256_fnmadd_pd(n, _mm256_set1_pd(6.93147180369123816490e-01), x);
     r = _mm256_fnmadd_pd(n, _mm256_set1_pd(1.90821492927058770002e-10), r);
-    const __m256d r2 = _mm256_mul_pd(r, r), r4 = _mm256_mul_pd(r2, r2), r8 = _mm256_mul_pd(r4, r4);
-    // Terms 2k and 2k + 1: 1/(2k)! + r/(2k + 1)!
-    const __m256d p01 = _mm256_add_pd(r, _mm256_set1_pd(1.0));
-    const __m256d p23 = _mm256_fmadd_pd(r, _mm256_set1_pd(1.0 / 6.0), _mm256_set1_pd(0.5));
-    const __m256d p45 = _mm256_fmadd_pd(r, _mm256_set1_pd(1.0 / 120.0), _mm256_set1_pd(1.0 / 24.0));
-    const __m256d p67 =
-        _mm256_fmadd_pd(r, _mm256_set1_pd(1.0 / 5040.0), _mm256_set1_pd(1.0 / 720.0));
-    const __m256d p89 =
-        _mm256_fmadd_pd(r, _mm256_set1_pd(1.0 / 362880.0), _mm256_set1_pd(1.0 / 40320.0));
-    const __m256d p1011 =
-        _mm256_fmadd_pd(r, _mm256_set1_pd(1.0 / 39916800.0), _mm256_set1_pd(1.0 / 3628800.0));
-    const __m256d p12 = _mm256_set1_pd(1.0 / 479001600.0);
-    const __m256d q0 = _mm256_fmadd_pd(p23, r2, p01), q1 = _mm256_fmadd_pd(p67, r2, p45);
-    const __m256d q2 = _mm256_fmadd_pd(p1011, r2, p89);
-    const __m256d w0 = _mm256_fmadd_pd(q1, r4, q0), w1 = _mm256_fmadd_pd(p12, r4, q2);
-    const __m256d p = _mm256_fmadd_pd(w1, r8, w0);
+    __m256d p = _mm256_set1_pd(1.0 / 479001600.0); // 1/12!
+    const double inv[12] = {
+        1.0 / 39916800.0, 1.0 / 3628800.0, 1.0 / 362880.0, 1.0 / 40320.0, 1.0 / 5040.0, 1.0 / 720.0,
+        1.0 / 120.0,      1.0 / 24.0,      1.0 / 6.0,      0.5,           1.0,          1.0};
+    for (double c : inv)
+        p = _mm256_fmadd_pd(p, r, _mm256_set1_pd(c));
     const __m128i ni = _mm256_cvtpd_epi32(n);
     const __m128i bias = _mm_set1_epi64x(1023);
     const __m128i lo = _mm_slli_epi64(_mm_add_epi64(_mm_cvtepi32_epi64(ni), bias), 52);
@@ -218,256 +206,100 @@ __attribute__((target("avx,fma"))) inline __m256d exp4(__m256d x) noexcept
     return _mm256_mul_pd(p, scale);
 }
 
-/// A field of four paths in the lanes of one vector (register moves only).
-template <typename Field>
-__attribute__((target("avx,fma"))) inline __m256d lanes4(const GlidePath* const* p,
-                                                         Field field) noexcept
-{
-    return _mm256_set_pd(field(*p[3]), field(*p[2]), field(*p[1]), field(*p[0]));
-}
-
 /// A weight as foldWithWeights takes it, four lanes at once: linearly (a weight that does
-/// not move is its own linear path, exactly) or, in the lanes where it moves in dB (`moves`),
-/// sign e^(l0 + s step). `any`: some lane moves in dB.
-template <typename Moves, typename From, typename To, typename Sign, typename L0, typename Step>
+/// not move is its own linear path, exactly) or, in the lanes marked in `db`, sign e in dB.
 __attribute__((target("avx,fma"))) inline void
-weight4(const GlidePath* const* p, __m256d sv4, bool any, Moves moves, From from, To to, Sign sign,
-        L0 l0, Step step, __m256d& w, __m256d& ws) noexcept
+weight4(__m256d s, const double* from, const double* lin, const double* sign, const double* db,
+        const double* e, const double* step, __m256d& w, __m256d& ws) noexcept
 {
-    const __m256d f = lanes4(p, from);
-    const __m256d linStep = _mm256_sub_pd(lanes4(p, to), f);
-    w = _mm256_fmadd_pd(sv4, linStep, f);
-    ws = linStep;
-    if (!any)
-        return;
-    const __m256d dbStep = lanes4(p, [&](const GlidePath& q) { return moves(q) ? step(q) : 0.0; });
-    const __m256d e = exp4(_mm256_fmadd_pd(
-        sv4, dbStep, lanes4(p, [&](const GlidePath& q) { return moves(q) ? l0(q) : 0.0; })));
-    const __m256d wDb = _mm256_mul_pd(lanes4(p, sign), e);
-    // sign bit set (blendv) where the weight moves in dB
-    const __m256d mask = lanes4(p, [&](const GlidePath& q) { return moves(q) ? -1.0 : 0.0; });
-    w = _mm256_blendv_pd(w, wDb, mask);
-    ws = _mm256_blendv_pd(ws, _mm256_mul_pd(wDb, dbStep), mask);
+    const __m256d linStep = _mm256_load_pd(lin);
+    const __m256d wLin = _mm256_fmadd_pd(s, linStep, _mm256_load_pd(from));
+    const __m256d wDb = _mm256_mul_pd(_mm256_load_pd(sign), _mm256_load_pd(e));
+    const __m256d mask = _mm256_load_pd(db);
+    w = _mm256_blendv_pd(wLin, wDb, mask);
+    ws = _mm256_blendv_pd(linStep, _mm256_mul_pd(wDb, _mm256_load_pd(step)), mask);
 }
 
-/// Six vectors of four lanes (value m of path i in lane i of x[m]) as rows, a path per row
-/// `stride` doubles apart: values 0-3 by a 4 x 4 transpose, 4-5 by a 2 x 4 one.
-__attribute__((target("avx,fma"))) inline void storeRows(const __m256d* x, int count, int stride,
-                                                         double* out) noexcept
+__attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* s,
+                                                  int count, double (*value)[6],
+                                                  double (*slope)[6]) noexcept
 {
-    const __m256d t0 = _mm256_unpacklo_pd(x[0], x[1]), t1 = _mm256_unpackhi_pd(x[0], x[1]);
-    const __m256d t2 = _mm256_unpacklo_pd(x[2], x[3]), t3 = _mm256_unpackhi_pd(x[2], x[3]);
-    const __m256d r[4] = {
-        _mm256_permute2f128_pd(t0, t2, 0x20), _mm256_permute2f128_pd(t1, t3, 0x20),
-        _mm256_permute2f128_pd(t0, t2, 0x31), _mm256_permute2f128_pd(t1, t3, 0x31)};
-    const __m256d u0 = _mm256_unpacklo_pd(x[4], x[5]), u1 = _mm256_unpackhi_pd(x[4], x[5]);
-    const __m128d e[4] = {_mm256_castpd256_pd128(u0), _mm256_castpd256_pd128(u1),
-                          _mm256_extractf128_pd(u0, 1), _mm256_extractf128_pd(u1, 1)};
-    for (int i = 0; i < count; ++i)
+    alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4], lh[4], dh[4], ll[4], dl[4];
+    // The weights: high and low from, step (linear) and sign (in dB) with the lanes moving
+    // in dB marked; band from and step.
+    alignas(32) double hFrom[4], hLin[4], hSign[4], hDb[4], lFrom[4], lLin[4], lSign[4], lDb[4],
+        bFrom[4], bTo[4];
+    bool anyHigh = false, anyLow = false;
+    for (int i = 0; i < 4; ++i)
     {
-        _mm256_storeu_pd(out + i * stride, r[i]);
-        _mm_storeu_pd(out + i * stride + 4, e[i]);
+        const GlidePath& p = *paths[i < count ? i : 0];
+        const double si = std::clamp(s[i < count ? i : 0], 0.0, 1.0);
+        lg[i] = p.from.logG;
+        dg[i] = p.to.logG - p.from.logG;
+        lk[i] = p.from.logK;
+        dk[i] = p.to.logK - p.from.logK;
+        sv[i] = si;
+        const bool high = highInDb(p), low = lowInDb(p);
+        anyHigh = anyHigh || high;
+        anyLow = anyLow || low;
+        lh[i] = high ? p.logHigh0 : 0.0;
+        dh[i] = high ? p.logHighStep : 0.0;
+        ll[i] = low ? p.logLow0 : 0.0;
+        dl[i] = low ? p.logLowStep : 0.0;
+        hFrom[i] = p.from.mHigh;
+        hLin[i] = p.to.mHigh - p.from.mHigh;
+        hSign[i] = p.signHigh;
+        hDb[i] = high ? -1.0 : 0.0; // sign bit set (blendv) where the weight moves in dB
+        lFrom[i] = p.from.mLow;
+        lLin[i] = p.to.mLow - p.from.mLow;
+        lSign[i] = p.signLow;
+        lDb[i] = low ? -1.0 : 0.0;
+        bFrom[i] = p.from.mBand;
+        bTo[i] = p.to.mBand;
     }
-}
-
-/// The core of foldedAt for four paths (p[i] in lane i) at positions sv4 (in [0, 1]): the
-/// folded values v[m] and their slopes d[m], lane by lane. anyHigh / anyLow: some path's
-/// high / low weight moves in dB.
-__attribute__((target("avx,fma"), always_inline)) inline void foldedCore4(const GlidePath* const* p,
-                                                                          __m256d sv4, bool anyHigh,
-                                                                          bool anyLow, __m256d* v,
-                                                                          __m256d* d) noexcept
-{
-    const __m256d zero = _mm256_setzero_pd(), one = _mm256_set1_pd(1.0);
-    __m256d mh, mhs, ml, mls;
-    weight4(
-        p, sv4, anyHigh, [](const GlidePath& q) { return highInDb(q); },
-        [](const GlidePath& q) { return q.from.mHigh; },
-        [](const GlidePath& q) { return q.to.mHigh; },
-        [](const GlidePath& q) { return q.signHigh; },
-        [](const GlidePath& q) { return q.logHigh0; },
-        [](const GlidePath& q) { return q.logHighStep; }, mh, mhs);
-    weight4(
-        p, sv4, anyLow, [](const GlidePath& q) { return lowInDb(q); },
-        [](const GlidePath& q) { return q.from.mLow; },
-        [](const GlidePath& q) { return q.to.mLow; }, [](const GlidePath& q) { return q.signLow; },
-        [](const GlidePath& q) { return q.logLow0; },
-        [](const GlidePath& q) { return q.logLowStep; }, ml, mls);
-    const __m256d lg = lanes4(p, [](const GlidePath& q) { return q.from.logG; });
-    const __m256d dg4 = _mm256_sub_pd(lanes4(p, [](const GlidePath& q) { return q.to.logG; }), lg);
-    const __m256d lk = lanes4(p, [](const GlidePath& q) { return q.from.logK; });
-    const __m256d dk4 = _mm256_sub_pd(lanes4(p, [](const GlidePath& q) { return q.to.logK; }), lk);
-    const __m256d g = exp4(_mm256_fmadd_pd(sv4, dg4, lg));
-    const __m256d k = exp4(_mm256_fmadd_pd(sv4, dk4, lk));
+    const __m256d sv4 = _mm256_load_pd(sv);
+    // The weights that move in dB: their magnitudes, four at a time.
+    alignas(32) double eh[4] = {1.0, 1.0, 1.0, 1.0}, el[4] = {1.0, 1.0, 1.0, 1.0};
+    if (anyHigh)
+        _mm256_store_pd(eh, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dh), _mm256_load_pd(lh))));
+    if (anyLow)
+        _mm256_store_pd(el, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dl), _mm256_load_pd(ll))));
+    const __m256d dg4 = _mm256_load_pd(dg), dk4 = _mm256_load_pd(dk);
+    const __m256d g = exp4(_mm256_fmadd_pd(sv4, dg4, _mm256_load_pd(lg)));
+    const __m256d k = exp4(_mm256_fmadd_pd(sv4, dk4, _mm256_load_pd(lk)));
     const __m256d gs = _mm256_mul_pd(g, dg4), ks = _mm256_mul_pd(k, dk4);
+    const __m256d one = _mm256_set1_pd(1.0);
     const __m256d a1 = _mm256_div_pd(one, _mm256_fmadd_pd(g, _mm256_add_pd(g, k), one));
     // a1' = -a1^2 (2 g g' + g' k + g k')
     const __m256d inner =
         _mm256_fmadd_pd(g, ks, _mm256_mul_pd(gs, _mm256_add_pd(_mm256_add_pd(g, g), k)));
-    const __m256d a1s = _mm256_mul_pd(_mm256_sub_pd(zero, _mm256_mul_pd(a1, a1)), inner);
-    const __m256d bFrom4 = lanes4(p, [](const GlidePath& q) { return q.from.mBand; });
-    const __m256d bTo4 = lanes4(p, [](const GlidePath& q) { return q.to.mBand; });
+    const __m256d a1s =
+        _mm256_mul_pd(_mm256_sub_pd(_mm256_setzero_pd(), _mm256_mul_pd(a1, a1)), inner);
+    __m256d mh, mhs, ml, mls;
+    weight4(sv4, hFrom, hLin, hSign, hDb, eh, dh, mh, mhs);
+    weight4(sv4, lFrom, lLin, lSign, lDb, el, dl, ml, mls);
+    const __m256d bFrom4 = _mm256_load_pd(bFrom), bTo4 = _mm256_load_pd(bTo);
     const __m256d mbs = _mm256_sub_pd(bTo4, bFrom4);
     // At s = 1 exactly the end value (from + (to - from) need not round to it).
     const __m256d mb = _mm256_blendv_pd(_mm256_fmadd_pd(sv4, mbs, bFrom4), bTo4,
                                         _mm256_cmp_pd(sv4, one, _CMP_GE_OQ));
-    v[0] = a1;
-    v[1] = _mm256_mul_pd(g, a1);
-    v[2] = g;
-    v[3] = mh;
-    v[4] = _mm256_fnmadd_pd(mh, k, mb);
-    v[5] = _mm256_sub_pd(ml, mh);
-    d[0] = a1s;
-    d[1] = _mm256_fmadd_pd(gs, a1, _mm256_mul_pd(g, a1s));
-    d[2] = gs;
-    d[3] = mhs;
-    d[4] = _mm256_fnmadd_pd(mh, ks, _mm256_fnmadd_pd(mhs, k, mbs));
-    d[5] = _mm256_sub_pd(mls, mhs);
-}
-
-/// foldedAt for four paths, one per vector lane. The paths' fields go into the lanes by
-/// register moves and the results come out a path per row (`stride` doubles apart; six
-/// values each) by 4 x 4 transposes, with no scalar stores read back as vectors.
-__attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* s,
-                                                  int count, double* value, double* slope,
-                                                  int stride) noexcept
-{
-    const GlidePath* p[4];
-    double sv[4];
-    bool anyHigh = false, anyLow = false;
-    for (int i = 0; i < 4; ++i)
-    {
-        p[i] = paths[i < count ? i : 0];
-        sv[i] = std::clamp(s[i < count ? i : 0], 0.0, 1.0);
-        anyHigh = anyHigh || highInDb(*p[i]);
-        anyLow = anyLow || lowInDb(*p[i]);
-    }
-    __m256d v[6], d[6];
-    foldedCore4(p, _mm256_set_pd(sv[3], sv[2], sv[1], sv[0]), anyHigh, anyLow, v, d);
-    // Rows: values 0-3 of path i by a 4 x 4 transpose, values 4-5 by a 2 x 4 one.
-    storeRows(v, count, stride, value);
-    storeRows(d, count, stride, slope);
-}
-
-/// x with its lanes moved up by one and `first` in lane 0: [first, x0, x1, x2].
-__attribute__((target("avx,fma"))) inline __m256d shiftIn(__m256d x, double first) noexcept
-{
-    const __m256d low = _mm256_permute2f128_pd(x, x, 0x08); // [0, 0, x0, x1]
-    return _mm256_blend_pd(_mm256_shuffle_pd(low, x, 0x5), _mm256_set1_pd(first), 1);
-}
-
-/// Value m of the sections whose chains start in lanes marked `fresh` (lane 0 always), zero
-/// in the others.
-__attribute__((target("avx,fma"))) inline __m256d startLanes(const bool* fresh, double* const* x,
-                                                             int m) noexcept
-{
-    return _mm256_set_pd(fresh[3] ? x[3][m] : 0.0, fresh[2] ? x[2][m] : 0.0,
-                         fresh[1] ? x[1][m] : 0.0, x[0][m]);
-}
-
-/// glideSegments with the knots in the lanes of one vector each.
-__attribute__((target("avx,fma"), always_inline)) inline void
-glideSegments4(const GlidePath* const* paths, const double* s, const double* dsdn,
-               const int* length, int count, double* const* value, double* const* slope,
-               double* const* cubic) noexcept
-{
-    auto lane = [count](const auto* x, int i) { return x[i < count ? i : count - 1]; };
-    const GlidePath* p[4];
-    double sv[4], kv[4], inv2[4], inv3[4], rate[4];
-    bool anyHigh = false, anyLow = false;
-    // Lanes that start a section's chain of intervals take its running values and slopes
-    // (`fresh`), the others continue from the lane before.
-    bool fresh[4];
-    for (int i = 0; i < 4; ++i)
-    {
-        p[i] = lane(paths, i);
-        anyHigh = anyHigh || highInDb(*p[i]);
-        anyLow = anyLow || lowInDb(*p[i]);
-        fresh[i] = i == 0 || (i < count && value[i] != value[i - 1]);
-        sv[i] = std::clamp(lane(s, i), 0.0, 1.0);
-        const double K = lane(length, i);
-        kv[i] = K;
-        inv2[i] = 1.0 / (K * K);
-        inv3[i] = inv2[i] / K;
-        rate[i] = lane(dsdn, i);
-    }
-    __m256d v[6], d[6];
-    foldedCore4(p, _mm256_set_pd(sv[3], sv[2], sv[1], sv[0]), anyHigh, anyLow, v, d);
-    const __m256d restart =
-        _mm256_set_pd(fresh[3] ? -1.0 : 0.0, fresh[2] ? -1.0 : 0.0, fresh[1] ? -1.0 : 0.0, -1.0);
-    const __m256d K4 = _mm256_set_pd(kv[3], kv[2], kv[1], kv[0]);
-    const __m256d i2 = _mm256_set_pd(inv2[3], inv2[2], inv2[1], inv2[0]);
-    const __m256d i3 = _mm256_set_pd(inv3[3], inv3[2], inv3[1], inv3[0]);
-    const __m256d r4 = _mm256_set_pd(rate[3], rate[2], rate[1], rate[0]);
-    const __m256d three = _mm256_set1_pd(3.0), two = _mm256_set1_pd(2.0);
-    // The Hermite cubic of each interval, as startCubic (Chain.cpp) forms it, in separate
-    // multiplies and subtractions: v(n) = b + s0 n + c2 n^2 + c3 n^3.
-    __m256d power[4][6];
+    const __m256d v[6] = {a1, _mm256_mul_pd(g, a1),        g,
+                          mh, _mm256_fnmadd_pd(mh, k, mb), _mm256_sub_pd(ml, mh)};
+    const __m256d d[6] = {
+        a1s, _mm256_fmadd_pd(gs, a1, _mm256_mul_pd(g, a1s)),          gs,
+        mhs, _mm256_fnmadd_pd(mh, ks, _mm256_fnmadd_pd(mhs, k, mbs)), _mm256_sub_pd(mls, mhs)};
+    alignas(32) double vt[6][4], dt[6][4];
     for (int m = 0; m < 6; ++m)
     {
-        d[m] = _mm256_mul_pd(d[m], r4); // per sample
-        const __m256d b =
-            _mm256_blendv_pd(shiftIn(v[m], 0.0), startLanes(fresh, value, m), restart);
-        const __m256d s0 =
-            _mm256_blendv_pd(shiftIn(d[m], 0.0), startLanes(fresh, slope, m), restart);
-        const __m256d rise = _mm256_sub_pd(_mm256_sub_pd(v[m], b), _mm256_mul_pd(s0, K4));
-        const __m256d turn = _mm256_sub_pd(d[m], s0);
-        power[0][m] = b;
-        power[1][m] = s0;
-        power[2][m] =
-            _mm256_mul_pd(_mm256_sub_pd(_mm256_mul_pd(three, rise), _mm256_mul_pd(turn, K4)), i2);
-        power[3][m] =
-            _mm256_mul_pd(_mm256_sub_pd(_mm256_mul_pd(turn, K4), _mm256_mul_pd(two, rise)), i3);
-    }
-    for (int o = 0; o < 4; ++o)
-    {
-        // Interval i's coefficients of n^o: a 4 x 4 and a 2 x 4 transpose, as storeRows.
-        const __m256d* x = power[o];
-        const __m256d t0 = _mm256_unpacklo_pd(x[0], x[1]), t1 = _mm256_unpackhi_pd(x[0], x[1]);
-        const __m256d t2 = _mm256_unpacklo_pd(x[2], x[3]), t3 = _mm256_unpackhi_pd(x[2], x[3]);
-        const __m256d r[4] = {
-            _mm256_permute2f128_pd(t0, t2, 0x20), _mm256_permute2f128_pd(t1, t3, 0x20),
-            _mm256_permute2f128_pd(t0, t2, 0x31), _mm256_permute2f128_pd(t1, t3, 0x31)};
-        const __m256d u0 = _mm256_unpacklo_pd(x[4], x[5]), u1 = _mm256_unpackhi_pd(x[4], x[5]);
-        const __m256d zero = _mm256_setzero_pd();
-        // Values 4, 5 and the two zero lanes in one store each.
-        const __m256d e[4] = {
-            _mm256_permute2f128_pd(u0, zero, 0x20), _mm256_permute2f128_pd(u1, zero, 0x20),
-            _mm256_permute2f128_pd(u0, zero, 0x31), _mm256_permute2f128_pd(u1, zero, 0x31)};
-        for (int i = 0; i < count; ++i)
-        {
-            _mm256_storeu_pd(cubic[i] + 8 * o, r[i]);
-            _mm256_storeu_pd(cubic[i] + 8 * o + 4, e[i]);
-        }
-    }
-    // Each chain's last lane hands its values and slopes back to its section.
-    alignas(32) double lastV[6][4], lastD[6][4];
-    for (int m = 0; m < 6; ++m)
-    {
-        _mm256_store_pd(lastV[m], v[m]);
-        _mm256_store_pd(lastD[m], d[m]);
+        _mm256_store_pd(vt[m], v[m]);
+        _mm256_store_pd(dt[m], d[m]);
     }
     for (int i = 0; i < count; ++i)
-        if (i == count - 1 || value[i + 1] != value[i])
-            for (int m = 0; m < 6; ++m)
-            {
-                value[i][m] = lastV[m][i];
-                slope[i][m] = lastD[m][i];
-            }
-}
-
-/// Up to eight intervals as two groups of four in one body, so that the processor overlaps
-/// the second group's exponentials with the first group's work.
-__attribute__((target("avx,fma"))) void glideSegments8(const GlidePath* const* paths,
-                                                       const double* s, const double* dsdn,
-                                                       const int* length, int count,
-                                                       double* const* value, double* const* slope,
-                                                       double* const* cubic) noexcept
-{
-    glideSegments4(paths, s, dsdn, length, std::min(count, 4), value, slope, cubic);
-    if (count > 4)
-        glideSegments4(paths + 4, s + 4, dsdn + 4, length + 4, count - 4, value + 4, slope + 4,
-                       cubic + 4);
+        for (int m = 0; m < 6; ++m)
+        {
+            value[i][m] = vt[m][i];
+            slope[i][m] = dt[m][i];
+        }
 }
 
 bool hasAvxFma() noexcept
@@ -500,50 +332,12 @@ void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, do
 #if defined(__x86_64__) && defined(__GNUC__)
     if (count > 0 && hasAvxFma())
     {
-        foldedAt4(paths, s, std::min(count, 4), value[0], slope[0], 6);
+        foldedAt4(paths, s, std::min(count, 4), value, slope);
         return;
     }
 #endif
     for (int i = 0; i < std::min(count, 4); ++i)
         paths[i]->foldedAt(s[i], value[i], slope[i]);
-}
-
-void glideSegments(const GlidePath* const* paths, const double* s, const double* dsdn,
-                   const int* length, int count, double* const* value, double* const* slope,
-                   double* const* cubic) noexcept
-{
-    count = std::min(count, 8);
-    if (count <= 0)
-        return;
-#if defined(__x86_64__) && defined(__GNUC__)
-    if (hasAvxFma())
-    {
-        glideSegments8(paths, s, dsdn, length, count, value, slope, cubic);
-        return;
-    }
-#endif
-    for (int i = 0; i < count; ++i)
-    {
-        double end[6], endSlope[6];
-        paths[i]->foldedAt(s[i], end, endSlope);
-        const double K = length[i];
-        const double inv2 = 1.0 / (K * K), inv3 = inv2 / K;
-        double* v = value[i];
-        double* d = slope[i];
-        for (int m = 0; m < 6; ++m)
-        {
-            const double es = endSlope[m] * dsdn[i];
-            const double rise = end[m] - v[m] - d[m] * K, turn = es - d[m];
-            cubic[i][m] = v[m];
-            cubic[i][8 + m] = d[m];
-            cubic[i][16 + m] = (3.0 * rise - turn * K) * inv2;
-            cubic[i][24 + m] = (turn * K - 2.0 * rise) * inv3;
-            v[m] = end[m];
-            d[m] = es;
-        }
-        for (int o = 0; o < 4; ++o)
-            cubic[i][8 * o + 6] = cubic[i][8 * o + 7] = 0.0;
-    }
 }
 
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept

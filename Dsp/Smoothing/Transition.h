@@ -137,18 +137,6 @@ struct GlidePath
 void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, double (*value)[6],
                    double (*slope)[6]) noexcept;
 
-/// Up to eight knot intervals in one pass (vector lanes where the CPU has AVX and FMA).
-/// Interval i lies on paths[i] and ends at position s[i] (ds/dn there: dsdn[i]) after
-/// length[i] samples. value[i] and slope[i] point to its section's running values and
-/// slopes per sample (six each): consecutive intervals with the same pointers are one
-/// section's consecutive intervals, the first starting from what they hold. Each interval's
-/// Hermite cubic (matching values and slopes at both ends) goes to cubic[i] (32 values: the
-/// coefficient of n^o for folded value m at 8 o + m, lanes 6 and 7 zero), and each section's
-/// values and slopes end as its last knot's.
-void glideSegments(const GlidePath* const* paths, const double* s, const double* dsdn,
-                   const int* length, int count, double* const* value, double* const* slope,
-                   double* const* cubic) noexcept;
-
 /// Whether a section stage may glide from settings a to b (same structure, moderate move:
 /// frequency within an octave, gain within 12 dB, Q and slope within a factor of two);
 /// otherwise the change crossfades. Both must be enabled section stages.
