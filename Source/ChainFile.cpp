@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstring>
 #include <optional>
 
 namespace kerf
@@ -353,18 +354,26 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     return {};
 }
 
+/// Deepest nesting of arrays and objects a chain file may use (a chain file needs three:
+/// the chain, its stage list, a stage; reflections add two). JUCE's JSON parser recurses
+/// once per level, so unbounded nesting would exhaust the stack.
+constexpr int kMaxJsonNesting = 32;
+
 /// JUCE 7.0.5's JSON parser reads the whole-number part of every number into a 64-bit
 /// integer with no overflow check (juce_JSON.cpp, JSONParser::parseNumber): 19 or more
 /// digits overflow, which is undefined behaviour and in practice wraps (2^64 + 1 would read
 /// as 1). Its exponent goes through CharacterFunctions::readDoubleValue, which adds up the
 /// exponent's significant digits in an int, again unchecked: ten or more overflow. No
-/// chain-file field needs such a number, so both are refused before JUCE parses. Found by
-/// fuzzing (Tests/fuzz/regressions/chain_file). Returns an error or nothing.
-juce::String overlongNumberError(const juce::String& text)
+/// chain-file field needs such a number, so both are refused before JUCE parses. After a
+/// minus sign JUCE takes the next character that is not white space as the first digit,
+/// whatever it is ("-x" reads as -72; a letter followed by digits overflows), so a minus
+/// sign must be followed by a digit. Nesting deeper than kMaxJsonNesting is refused too.
+/// Found by fuzzing (Tests/fuzz/regressions/chain_file). Returns an error or nothing.
+juce::String juceJsonHazard(const juce::String& text)
 {
     juce::juce_wchar quote = 0, prev = 0, prev2 = 0, beforeRun = 0, beforeSign = 0;
-    bool escaped = false;
-    int line = 1, run = 0, exponentDigits = 0;
+    bool escaped = false, afterMinus = false;
+    int line = 1, run = 0, exponentDigits = 0, depth = 0;
     for (auto p = text.getCharPointer(); !p.isEmpty();)
     {
         const auto c = p.getAndAdvance();
@@ -379,8 +388,15 @@ juce::String overlongNumberError(const juce::String& text)
             else if (c == quote)
                 quote = 0;
         }
+        else if (afterMinus && !juce::CharacterFunctions::isWhitespace(c) && (c < '0' || c > '9'))
+            return "line " + juce::String(line) + ": a minus sign not followed by a digit";
         else if (c == '"' || c == '\'')
             quote = c;
+        else if ((c == '[' || c == '{') && ++depth > kMaxJsonNesting)
+            return "line " + juce::String(line) + ": arrays and objects nested more than " +
+                   juce::String(kMaxJsonNesting) + " deep";
+        else if (c == ']' || c == '}')
+            --depth;
         else if (c >= '0' && c <= '9')
         {
             if (run++ == 0)
@@ -401,6 +417,10 @@ juce::String overlongNumberError(const juce::String& text)
         }
         if (c < '0' || c > '9')
             run = exponentDigits = 0;
+        if (quote == 0 && c == '-')
+            afterMinus = true;
+        else if (!juce::CharacterFunctions::isWhitespace(c))
+            afterMinus = false;
         prev2 = prev;
         prev = c;
     }
@@ -412,9 +432,9 @@ juce::String overlongNumberError(const juce::String& text)
 ChainReadResult parseChainJson(const juce::String& jsonText)
 {
     ChainReadResult r;
-    if (const auto overlong = overlongNumberError(jsonText); overlong.isNotEmpty())
+    if (const auto hazard = juceJsonHazard(jsonText); hazard.isNotEmpty())
     {
-        r.error = "not valid JSON: " + overlong;
+        r.error = "not valid JSON: " + hazard;
         return r;
     }
     juce::var root;
@@ -506,6 +526,31 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
     return r;
 }
 
+ChainReadResult parseChainBytes(const void* data, std::size_t size)
+{
+    const auto* b = static_cast<const unsigned char*>(data);
+    const bool utf16 =
+        size >= 2 && ((b[0] == 0xff && b[1] == 0xfe) || (b[0] == 0xfe && b[1] == 0xff));
+    std::size_t nul = size;
+    if (utf16)
+    {
+        for (std::size_t i = 2; i + 1 < size && nul == size; i += 2)
+            if (b[i] == 0 && b[i + 1] == 0)
+                nul = i;
+    }
+    else if (const void* z = std::memchr(b, 0, size); z != nullptr)
+        nul = static_cast<std::size_t>(static_cast<const unsigned char*>(z) - b);
+    if (nul < size)
+    {
+        ChainReadResult r;
+        r.error = "not a text file: a NUL character at byte " + juce::String(nul);
+        return r;
+    }
+    // As JUCE reads a text stream: UTF-16 by its byte-order mark, otherwise UTF-8.
+    juce::MemoryInputStream in(data, size, false);
+    return parseChainJson(in.readEntireStreamAsString());
+}
+
 ChainReadResult readChainFile(const juce::File& file)
 {
     ChainReadResult r;
@@ -526,7 +571,9 @@ ChainReadResult readChainFile(const juce::File& file)
                   " cannot be read: " + in.getStatus().getErrorMessage();
         return r;
     }
-    r = parseChainJson(in.readEntireStreamAsString());
+    juce::MemoryBlock bytes;
+    in.readIntoMemoryBlock(bytes);
+    r = parseChainBytes(bytes.getData(), bytes.getSize());
     if (!r.ok)
         r.error = file.getFileName() + ": " + r.error;
     return r;

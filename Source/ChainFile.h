@@ -24,6 +24,10 @@ struct ChainReadResult
 /// Parses chain-file JSON text. Never throws; every problem becomes an error message.
 ChainReadResult parseChainJson(const juce::String& jsonText);
 
+/// Parses chain-file bytes (UTF-8, or UTF-16 with its byte-order mark). Text holding a NUL
+/// character is refused: a JUCE string ends at it, but JUCE's JSON parser reads on past it.
+ChainReadResult parseChainBytes(const void* data, std::size_t size);
+
 /// Reads and parses a chain file.
 ChainReadResult readChainFile(const juce::File& file);
 

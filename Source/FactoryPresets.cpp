@@ -17,7 +17,7 @@ const juce::Array<FactoryPreset>& factoryPresets()
                 KerfPresetData::getNamedResource(KerfPresetData::namedResourceList[i], size);
             const juce::String fileName = KerfPresetData::getNamedResourceOriginalFilename(
                 KerfPresetData::namedResourceList[i]);
-            const auto parsed = parseChainJson(juce::String::fromUTF8(data, size));
+            const auto parsed = parseChainBytes(data, static_cast<std::size_t>(size));
             jassert(parsed.ok);
             if (!parsed.ok)
                 continue;

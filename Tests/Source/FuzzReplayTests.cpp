@@ -115,6 +115,47 @@ TEST_CASE("fuzz regression: an exponent too long for JUCE's number reader is ref
     CHECK(nine.chain.stages[0].q == 20.0);
 }
 
+TEST_CASE("fuzz regression: what JUCE's JSON parser misreads after a minus sign is refused",
+          "[fuzz]")
+{
+    // JUCE 7.0.5 (juce_JSON.cpp, parseAny/parseNumber) takes the character after '-' as the
+    // first digit whatever it is: "-x" reads as -('x' - '0') = -72, and a letter or NUL
+    // followed by 18 digits overflows int64 (C++20 [expr.pre]/4), which UBSan reported.
+    const auto minusLetter = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000, "gain_db": -x}]})");
+    CHECK_FALSE(minusLetter.ok);
+    CHECK(minusLetter.error.contains("minus sign not followed by a digit"));
+    // White space after the sign stays as JUCE reads it (RFC 8259 would refuse it; common
+    // practice to keep what earlier Kerf accepted).
+    const auto spaced = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000, "gain_db": - 6, "q": 1e-1}]})");
+    REQUIRE(spaced.ok);
+    CHECK(spaced.chain.stages[0].gainDb == -6.0);
+    // A NUL ends a JUCE string, but the parser reads on past it: bytes with a NUL are refused.
+    const char withNul[] = "{\"format\": \"kerf-chain\", \"version\": -\0"
+                           "1234567890123456789}";
+    const auto nul = parseChainBytes(withNul, sizeof(withNul) - 1);
+    CHECK_FALSE(nul.ok);
+    CHECK(nul.error.contains("NUL character at byte 37"));
+    // UTF-16 with its byte-order mark still reads (JUCE's text stream reading).
+    const juce::String text = R"({"format": "kerf-chain", "version": 1, "stages":
+        [{"type": "peaking", "freq_hz": 1000, "gain_db": -3}]})";
+    juce::MemoryOutputStream utf16;
+    utf16.writeByte(static_cast<char>(0xff));
+    utf16.writeByte(static_cast<char>(0xfe));
+    for (const auto c : text)
+        utf16.writeShort(static_cast<short>(c)); // little-endian
+    const auto wide = parseChainBytes(utf16.getData(), utf16.getDataSize());
+    REQUIRE(wide.ok);
+    CHECK(wide.chain.stages[0].gainDb == -3.0);
+    // Nesting: JUCE recurses once per level; a chain file needs five at most.
+    juce::String deep = R"({"format": "kerf-chain", "version": 1, "stages": [], "x": )";
+    deep << juce::String::repeatedString("[", 40) << juce::String::repeatedString("]", 40) << "}";
+    const auto nested = parseChainJson(deep);
+    CHECK_FALSE(nested.ok);
+    CHECK(nested.error.contains("nested more than 32 deep"));
+}
+
 TEST_CASE("readNumber reads numbers like JUCE, without its overflow", "[fuzz]")
 {
     // Ordinary texts: the same value as juce::String::getDoubleValue (JUCE 7.0.5), whose

@@ -91,9 +91,8 @@ bool sameChain(const dsp::ChainSpec& a, const dsp::ChainSpec& b)
 Outcome checkChainFile(const void* data, std::size_t size)
 {
     Outcome out;
-    // As readChainFile reads a file: the whole stream as text.
-    juce::MemoryInputStream in(data, size, false);
-    const auto parsed = parseChainJson(in.readEntireStreamAsString());
+    // As readChainFile reads a file's bytes.
+    const auto parsed = parseChainBytes(data, size);
     if (!parsed.ok)
     {
         out.message = parsed.error;
