@@ -5,6 +5,8 @@
 #include "NumberText.h"
 #include "Response/SystemFunction.h"
 
+#include <cstring>
+
 namespace kerf
 {
 
@@ -24,6 +26,30 @@ const juce::Identifier kEditorHeightAttr{"height"};
 const juce::Identifier kEditorAnalyzerAttr{"analyzer"};
 /// Largest editor side a state may carry (the editor's own limits apply on top).
 constexpr int kEditorSideMax = 16384;
+
+/// Whether the XML text of a saved state (JUCE's binary wrapping: "VC2!", a 32-bit length,
+/// the text) is well-formed UTF-8 with nothing after its terminating NUL, or is no such
+/// wrapping at all (JUCE refuses that itself). JUCE 7.0.5 steps over the continuation bytes
+/// a lead byte announces without looking for the end of the text
+/// (CharPointer_UTF8::operator++), so malformed UTF-8 near the end made its XML reader read
+/// past the buffer (AddressSanitizer, found by fuzzing: Tests/fuzz/regressions/plugin_state).
+bool stateTextIsSafe(const void* data, int size)
+{
+    constexpr juce::uint32 kXmlMagic = 0x21324356; // "VC2!", AudioProcessor::copyXmlToBinary
+    if (size <= 8 || juce::ByteOrder::littleEndianInt(data) != kXmlMagic)
+        return true;
+    const auto* text = static_cast<const char*>(data) + 8;
+    const int claimed = static_cast<int>(juce::ByteOrder::littleEndianInt(text - 4));
+    const int length = juce::jmin(size - 8, claimed);
+    if (length <= 0)
+        return true;
+    const auto* end = static_cast<const char*>(std::memchr(text, 0, static_cast<size_t>(length)));
+    const int textLength = end != nullptr ? static_cast<int>(end - text) : length;
+    for (int i = textLength; i < length; ++i)
+        if (text[i] != 0)
+            return false; // more text after the NUL: JUCE's reader would go on into it
+    return juce::CharPointer_UTF8::isValidString(text, textLength);
+}
 
 /// Names the first attribute of `root` (or of any element inside it) that JUCE cannot read
 /// as a number without overflowing (NumberText.h), or nothing. Walked without recursion,
@@ -616,6 +642,14 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     setSlots({}, {}, CompareSlot::a);
     // The editor's size and analyzer switch: defaults unless the state holds them (below).
     restoreEditorSettings(nullptr);
+    if (!stateTextIsSafe(data, sizeInBytes))
+    {
+        stateProblem = "the saved state is damaged (its text is not valid UTF-8); parameters "
+                       "reset to defaults";
+        juce::Logger::writeToLog("Kerf: " + stateProblem);
+        resetToDefaults();
+        return;
+    }
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
     {

@@ -211,6 +211,43 @@ TEST_CASE("fuzz regression: a saved state with an overlong exponent is refused",
     juce::Logger::setCurrentLogger(nullptr);
 }
 
+TEST_CASE("fuzz regression: a saved state whose text is not valid UTF-8 is refused", "[fuzz]")
+{
+    // JUCE 7.0.5's CharPointer_UTF8::operator++ skips the continuation bytes a lead byte
+    // announces (0xff: three) without looking for the terminating NUL, so its XML reader ran
+    // past the buffer on this input (AddressSanitizer: heap-buffer-overflow). Well-formed
+    // UTF-8: RFC 3629, section 4 (0xf8-0xff never appear; continuation bytes 10xxxxxx).
+    juce::ScopedJuceInitialiser_GUI init;
+    struct Quiet : juce::Logger
+    {
+        void logMessage(const juce::String&) override {}
+    } quiet;
+    juce::Logger::setCurrentLogger(&quiet);
+    {
+        KerfProcessor p;
+        juce::MemoryBlock bytes;
+        REQUIRE(juce::File(KERF_SOURCE_DIR)
+                    .getChildFile("Tests/fuzz/regressions/plugin_state")
+                    .getChildFile("malformed-utf8-reads-past-juce-xml-buffer.state")
+                    .loadFileAsData(bytes));
+        p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
+        CHECK(p.lastStateProblem().contains("not valid UTF-8"));
+
+        // A good state, then the same with text after its NUL: refused too.
+        juce::MemoryBlock good;
+        p.getStateInformation(good);
+        p.setStateInformation(good.getData(), static_cast<int>(good.getSize()));
+        CHECK(p.lastStateProblem().isEmpty());
+        juce::MemoryBlock trailing(good);
+        trailing.append("<x/>", 4);
+        const auto length = static_cast<juce::uint32>(trailing.getSize() - 8);
+        trailing.copyFrom(&length, 4, 4); // little-endian host (x86-64, AArch64)
+        p.setStateInformation(trailing.getData(), static_cast<int>(trailing.getSize()));
+        CHECK(p.lastStateProblem().contains("not valid UTF-8"));
+    }
+    juce::Logger::setCurrentLogger(nullptr);
+}
+
 TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[fuzz][cli]")
 {
     // A 108-byte 8-bit WAV whose data chunk claims 0xFFFFFFF0 bytes: kerf echo-estimate once
