@@ -354,6 +354,62 @@ juce::String readStage(const juce::var& v, int index, dsp::StageSpec& out)
     return {};
 }
 
+/// JSON string literal of `text` (RFC 8259, section 7): quotation mark, reverse solidus and
+/// control characters escaped, every other character as itself in UTF-8. (JUCE's
+/// JSON::toString writes a character beyond U+FFFF as a UTF-16 surrogate pair of \u
+/// escapes, which JUCE's own parser reads back as two separate, invalid characters; found
+/// by fuzzing: a name with such a character did not read back.)
+juce::String jsonStringLiteral(const juce::String& text)
+{
+    juce::String out = "\"";
+    for (auto p = text.getCharPointer(); !p.isEmpty();)
+    {
+        const auto c = p.getAndAdvance();
+        if (c == '"' || c == '\\')
+            out << "\\" << juce::String::charToString(c);
+        else if (c == '\n')
+            out << "\\n";
+        else if (c == '\t')
+            out << "\\t";
+        else if (c == '\r')
+            out << "\\r";
+        else if (c < 0x20)
+            out << "\\u" << juce::String::toHexString(static_cast<int>(c)).paddedLeft('0', 4);
+        else
+            out << juce::String::charToString(c);
+    }
+    return out << "\"";
+}
+
+/// `text` with each UTF-16 surrogate pair (as JUCE's JSON parser leaves a \uD83D\uDE00
+/// escape: two code points) joined into the one character it encodes (RFC 8259, section 7;
+/// RFC 2781, section 2.2); a surrogate without its partner becomes U+FFFD.
+juce::String joinSurrogatePairs(const juce::String& text)
+{
+    constexpr juce::juce_wchar kReplacement = 0xfffd;
+    juce::String out;
+    juce::juce_wchar high = 0;
+    for (auto p = text.getCharPointer(); !p.isEmpty();)
+    {
+        const auto c = p.getAndAdvance();
+        const bool isHigh = c >= 0xd800 && c <= 0xdbff, isLow = c >= 0xdc00 && c <= 0xdfff;
+        if (high != 0 && isLow)
+        {
+            out << juce::String::charToString(0x10000 + ((high - 0xd800) << 10) + (c - 0xdc00));
+            high = 0;
+            continue;
+        }
+        if (high != 0)
+            out << juce::String::charToString(kReplacement);
+        high = isHigh ? c : 0;
+        if (!isHigh)
+            out << juce::String::charToString(isLow ? kReplacement : c);
+    }
+    if (high != 0)
+        out << juce::String::charToString(kReplacement);
+    return out;
+}
+
 /// Deepest nesting of arrays and objects a chain file may use (a chain file needs three:
 /// the chain, its stage list, a stage; reflections add two). JUCE's JSON parser recurses
 /// once per level, so unbounded nesting would exhaust the stack.
@@ -482,7 +538,7 @@ ChainReadResult parseChainJson(const juce::String& jsonText)
             r.error = juce::String("field '") + textField + "': expected a string";
             return r;
         }
-    r.name = obj->getProperty("name").toString();
+    r.name = joinSurrogatePairs(obj->getProperty("name").toString());
     const juce::var stages = obj->getProperty("stages");
     if (!stages.isArray())
     {
@@ -546,6 +602,17 @@ ChainReadResult parseChainBytes(const void* data, std::size_t size)
         r.error = "not a text file: a NUL character at byte " + juce::String(nul);
         return r;
     }
+    // JUCE steps over the continuation bytes a malformed UTF-8 lead byte announces without
+    // looking for the end of the text (CharPointer_UTF8::operator++), so its parser could
+    // read past the buffer: UTF-8 must be well-formed (RFC 3629, section 4).
+    if (!utf16 && !juce::CharPointer_UTF8::isValidString(
+                      static_cast<const char*>(data),
+                      static_cast<int>(std::min<std::size_t>(size, 1u << 30))))
+    {
+        ChainReadResult r;
+        r.error = "not UTF-8 text (a malformed byte sequence)";
+        return r;
+    }
     // As JUCE reads a text stream: UTF-16 by its byte-order mark, otherwise UTF-8.
     juce::MemoryInputStream in(data, size, false);
     return parseChainJson(in.readEntireStreamAsString());
@@ -587,7 +654,7 @@ juce::String chainToJson(const dsp::ChainSpec& chain, const juce::String& name)
     out << "{\n  \"format\": \"" << kChainFormatName
         << "\",\n  \"version\": " << kChainFormatVersion << ",\n";
     if (name.isNotEmpty())
-        out << "  \"name\": " << juce::JSON::toString(name) << ",\n";
+        out << "  \"name\": " << jsonStringLiteral(name) << ",\n";
     out << "  \"stages\": [";
     auto str = [](std::string_view v) { return juce::String(std::string(v)); };
     for (int i = 0; i < chain.numStages; ++i)

@@ -156,6 +156,33 @@ TEST_CASE("fuzz regression: what JUCE's JSON parser misreads after a minus sign 
     CHECK(nested.error.contains("nested more than 32 deep"));
 }
 
+TEST_CASE("fuzz regression: names beyond U+FFFF and malformed UTF-8 in chain files", "[fuzz]")
+{
+    // U+1F3B8 in UTF-8 (RFC 3629: F0 9F 8E B8). JUCE's JSON::toString wrote it as the escaped
+    // surrogate pair \uD83C\uDFB8, which JUCE's parser read back as two characters.
+    const juce::String guitar = juce::String::charToString(static_cast<juce::juce_wchar>(0x1f3b8));
+    dsp::ChainSpec chain;
+    const auto text = chainToJson(chain, "Stage left " + guitar + " \"loud\"\tmix");
+    const auto back = parseChainJson(text);
+    REQUIRE(back.ok);
+    CHECK(back.name == "Stage left " + guitar + " \"loud\"\tmix");
+    CHECK(chainToJson(back.chain, back.name) == text);
+    // Written by another tool as an escaped pair (RFC 8259, section 7): joined on reading;
+    // a lone surrogate becomes U+FFFD (RFC 2781, section 2.2).
+    const auto escaped = parseChainJson(
+        R"({"format": "kerf-chain", "version": 1, "name": "a\ud83c\udfb8b\ud83cc", "stages": []})");
+    REQUIRE(escaped.ok);
+    CHECK(escaped.name == "a" + guitar + "b" +
+                              juce::String::charToString(static_cast<juce::juce_wchar>(0xfffd)) +
+                              "c");
+    // A lone 0xff byte is no UTF-8 (RFC 3629, section 4): refused before JUCE steps over it.
+    const char bad[] =
+        "{\"format\": \"kerf-chain\", \"version\": 1, \"name\": \"\xff\", \"stages\": []}";
+    const auto refused = parseChainBytes(bad, sizeof(bad) - 1);
+    CHECK_FALSE(refused.ok);
+    CHECK(refused.error.contains("not UTF-8 text"));
+}
+
 TEST_CASE("readNumber reads numbers like JUCE, without its overflow", "[fuzz]")
 {
     // Ordinary texts: the same value as juce::String::getDoubleValue (JUCE 7.0.5), whose
