@@ -22,6 +22,10 @@ struct FieldError
 /// Shortest text that reads back as exactly the same double.
 juce::String formatNumber(double v)
 {
+    // -0 is written as 0: JUCE's parser reads "-0" as the integer 0, so "-0" would not read
+    // back as the same text (found by fuzzing: "gain_db": -0.0).
+    if (v == 0.0)
+        v = 0.0;
     char buf[64];
     const auto res = std::to_chars(buf, buf + sizeof(buf), v);
     return juce::String(buf, static_cast<size_t>(res.ptr - buf));
