@@ -23,16 +23,14 @@ std::unique_ptr<juce::AccessibilityHandler> KerfEditor::ResizeGrip::createAccess
 
 KerfEditor::KerfEditor(KerfProcessor& p)
     : AudioProcessorEditor(p), kerfProcessor(p), settingsGeneration(p.editorSettingsGeneration()),
-      controls(p)
+      stages(p.state())
 {
     const auto saved = p.editorSettings(); // before any resize records a size
     addAndMakeVisible(display);
     response.attachParameters(p.state());
-    addAndMakeVisible(controls);
-    protectionLabel.setText("ceiling acting", juce::dontSendNotification);
-    protectionLabel.setColour(juce::Label::textColourId, juce::Colour(0xfff2a65a));
-    protectionLabel.setTooltip("The output protection is limiting peaks at its ceiling");
-    addChildComponent(protectionLabel);
+    addAndMakeVisible(stages);
+    stages.linkHandles(&response.sectionHandles());
+    addAndMakeVisible(presets);
 
     listenButton.setTooltip("Records a few seconds of the input and estimates its discrete "
                             "reflections (delay, gain, confidence)");
@@ -51,28 +49,8 @@ KerfEditor::KerfEditor(KerfProcessor& p)
     for (auto* c : std::initializer_list<juce::Component*>{&listenButton, &applyButton,
                                                            &discardButton, &echoStatus})
         addAndMakeVisible(c);
-    undoButton.onClick = [this] { kerfProcessor.undo(); };
-    redoButton.onClick = [this] { kerfProcessor.redo(); };
-    compareButton.setTooltip("A/B: keeps these settings in the active slot and loads the other "
-                             "(at first a copy of these)");
-    compareButton.onClick = [this] { kerfProcessor.switchSlot(); };
-    flatButton.setTooltip("Switches every section, comb and echo stage off at once; output "
-                          "gain and protection stay (undo brings the stages back)");
-    flatButton.onClick = [this] { kerfProcessor.setAllFlat(); };
-    undoButton.setComponentID("undo");
-    redoButton.setComponentID("redo");
-    compareButton.setComponentID("compare");
-    flatButton.setComponentID("allFlat");
-    for (auto* c : std::initializer_list<juce::Component*>{&undoButton, &redoButton, &compareButton,
-                                                           &flatButton})
-        addAndMakeVisible(c);
     addAndMakeVisible(analyzer);
     analyzer.attachTo(response);
-    undoButton.setTitle("Undo");
-    redoButton.setTitle("Redo");
-    compareButton.setTitle("A/B compare");
-    flatButton.setTitle("All flat");
-    updateSessionRow();
     // Host-resizable (the wrappers ask isResizable), with our own corner grip.
     setResizable(true, false);
     setResizeLimits(kMinWidth, kMinHeight, kMaxWidth, kMaxHeight);
@@ -90,6 +68,7 @@ KerfEditor::KerfEditor(KerfProcessor& p)
 KerfEditor::~KerfEditor()
 {
     stopTimer();
+    stages.linkHandles(nullptr);
 }
 
 void KerfEditor::paint(juce::Graphics& g)
@@ -104,15 +83,11 @@ void KerfEditor::resized()
     if (grip != nullptr)
         grip->setBounds(getWidth() - 18, getHeight() - 18, 18, 18);
     auto area = getLocalBounds();
-    auto sessionRow = area.removeFromTop(34).reduced(4);
-    for (auto* b : {&undoButton, &redoButton, &compareButton})
-    {
-        b->setBounds(sessionRow.removeFromLeft(80));
-        sessionRow.removeFromLeft(6);
-    }
-    flatButton.setBounds(sessionRow.removeFromRight(100));
-    sessionRow.removeFromRight(6);
-    analyzer.setBounds(sessionRow.removeFromRight(84));
+    // The preset bar takes a second line when the editor is narrow.
+    auto sessionRow = area.removeFromTop(PresetBar::preferredHeight(getWidth() - 88));
+    auto analyzerArea = sessionRow.removeFromRight(88);
+    analyzer.setBounds(analyzerArea.removeFromTop(PresetBar::kLineHeight).reduced(4));
+    presets.setBounds(sessionRow);
     auto echoRow = area.removeFromTop(34).reduced(4);
     listenButton.setBounds(echoRow.removeFromLeft(160));
     echoRow.removeFromLeft(6);
@@ -121,9 +96,8 @@ void KerfEditor::resized()
     applyButton.setBounds(echoRow.removeFromRight(120));
     echoStatus.setBounds(echoRow.reduced(6, 0));
     auto top = area.removeFromTop(area.getHeight() * 6 / 11);
-    protectionLabel.setBounds(top.getRight() - 120, top.getY() + 4, 116, 18);
     display.setBounds(top.reduced(4));
-    controls.setBounds(area);
+    stages.setBounds(area);
 }
 
 void KerfEditor::refreshResponse()
@@ -174,16 +148,6 @@ void KerfEditor::updateEchoPanel()
     discardButton.setEnabled(state != State::idle);
 }
 
-void KerfEditor::updateSessionRow()
-{
-    auto& history = kerfProcessor.history();
-    undoButton.setEnabled(history.canUndo());
-    redoButton.setEnabled(history.canRedo());
-    undoButton.setTooltip(history.canUndo() ? "Undo: " + history.undoName() : "Nothing to undo");
-    redoButton.setTooltip(history.canRedo() ? "Redo: " + history.redoName() : "Nothing to redo");
-    compareButton.setButtonText(kerfProcessor.activeSlot() == CompareSlot::a ? "A/B: A" : "A/B: B");
-}
-
 void KerfEditor::applySavedSettings()
 {
     const auto saved = kerfProcessor.editorSettings();
@@ -203,12 +167,6 @@ void KerfEditor::timerCallback()
     }
     refreshResponse();
     updateEchoPanel();
-    updateSessionRow();
-    if (kerfProcessor.takeProtectionCount() > 0)
-        protectionHoldFrames = 30;
-    else if (protectionHoldFrames > 0)
-        --protectionHoldFrames;
-    protectionLabel.setVisible(protectionHoldFrames > 0);
 }
 
 } // namespace kerf

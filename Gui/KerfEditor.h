@@ -1,9 +1,10 @@
 #pragma once
-// The first editor: the chain's response curve over a plain list of every parameter.
+// The editor: the preset bar, the chain's response curve and the stage list.
 #include "AnalyzerView.h"
 #include "DisplayDeck.h"
-#include "ParameterPanel.h"
+#include "PresetBar.h"
 #include "ResponseView.h"
+#include "StageList.h"
 
 #include <juce_audio_processors/juce_audio_processors.h>
 
@@ -12,8 +13,8 @@ namespace kerf
 
 class KerfProcessor;
 
-/// Plain, honest editor: the curve is the chain's exact H(z), the controls are the
-/// parameters themselves. Resizable within fixed limits; its size and the analyzer switch
+/// Plain, honest editor: the curve is the chain's exact H(z), the stage list's controls are
+/// the parameters themselves. Resizable within fixed limits; its size and the analyzer switch
 /// live in the processor's state (KerfProcessor::editorSettings), so a session reopens the
 /// editor as it was. A host's scale factor (setScaleFactor: VST3 setContentScaleFactor, LV2
 /// ui:scaleFactor) scales the whole editor; the layout works in unscaled pixels.
@@ -37,8 +38,10 @@ public:
     ResponseView& responseView() noexcept { return response; }
     /// The display area: response, z-plane or impulse view.
     DisplayDeck& displayDeck() noexcept { return display; }
-    /// The list of every parameter.
-    ParameterPanel& parameterPanel() noexcept { return controls; }
+    /// The stage list: a row per stage slot, and the output row (every parameter).
+    StageList& stageList() noexcept { return stages; }
+    /// Presets, A/B, undo/redo, All flat and the protection indicator.
+    PresetBar& presetBar() noexcept { return presets; }
 
 private:
     void timerCallback() override;
@@ -49,9 +52,8 @@ private:
     int settingsGeneration = 0;
     ResponseView response;
     DisplayDeck display{response};
-    ParameterPanel controls;
-    juce::Label protectionLabel;
-    int protectionHoldFrames = 0;
+    StageList stages;
+    PresetBar presets{kerfProcessor};
 
     // Echo panel: listen, then apply or discard what was found.
     void updateEchoPanel();
@@ -59,13 +61,6 @@ private:
     juce::TextButton applyButton{"Apply echo fix"};
     juce::TextButton discardButton{"Discard"};
     juce::Label echoStatus;
-
-    // Session row: undo, redo, the A/B switch, all flat (KerfProcessor's API).
-    void updateSessionRow();
-    juce::TextButton undoButton{"Undo"};
-    juce::TextButton redoButton{"Redo"};
-    juce::TextButton compareButton{"A/B: A"};
-    juce::TextButton flatButton{"All flat"};
 
 public:
     /// The live analyzer's switch; it draws into the response view (off by default).

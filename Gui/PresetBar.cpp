@@ -98,6 +98,7 @@ PresetBar::PresetBar(KerfProcessor& p) : processor(p)
         addAndMakeVisible(c);
     addChildComponent(nameField);
     refreshPresetList();
+    shownProgram = processor.getCurrentProgram(); // "Flat" at first says nothing of the state
     refresh();
     startTimerHz(30);
 }
@@ -152,6 +153,7 @@ juce::String PresetBar::loadEntry(int itemId)
         error = processor.loadUserPreset(userNames[itemId - kUserBase]);
     else
         error = "no such preset";
+    shownProgram = processor.getCurrentProgram();
     presetBox.setSelectedId(itemId, juce::dontSendNotification);
     deleteButton.setEnabled(chosenUserPreset().isNotEmpty());
     setStatus(error.isEmpty() ? juce::String() : "Not loaded: " + error, error.isNotEmpty());
@@ -211,6 +213,14 @@ void PresetBar::setStatus(const juce::String& text, bool problem)
 
 void PresetBar::refresh()
 {
+    // A program the host chose (or undo/redo of a preset load) shows in the box.
+    if (const int program = processor.getCurrentProgram(); program != shownProgram)
+    {
+        shownProgram = program;
+        presetBox.setSelectedId(program == 0 ? kFlatId : kFactoryBase + program - 1,
+                                juce::dontSendNotification);
+        deleteButton.setEnabled(chosenUserPreset().isNotEmpty());
+    }
     auto& history = processor.history();
     undoButton.setEnabled(history.canUndo());
     redoButton.setEnabled(history.canRedo());

@@ -69,6 +69,7 @@ private:
     int holdFrames = 0;
     int deleteArmedFrames = 0;
     int statusFrames = 0;
+    int shownProgram = 0;        // the processor's program the box last followed
     juce::StringArray userNames; // in the box's order
 
     JUCE_DECLARE_NON_COPYABLE_WITH_LEAK_DETECTOR(PresetBar)

@@ -81,8 +81,9 @@ public:
 };
 } // namespace
 
-/// A viewport whose scroll bars carry a title and a tooltip like every other control.
-class StageList::ScrollingView : public juce::Viewport
+/// A viewport (it takes keyboard focus: arrows and page keys scroll) whose scroll bars carry
+/// a title and a tooltip like every other control.
+class StageList::ScrollingView : public juce::Viewport, public juce::SettableTooltipClient
 {
 public:
     ScrollingView()
@@ -90,6 +91,13 @@ public:
         // The base constructor made its scroll bars before this class existed: make ours.
         recreateScrollbars();
         setScrollBarsShown(true, false);
+        setTitle("Stage list");
+        setTooltip("A row per stage; the mouse wheel, the scroll bar or the arrow keys scroll it");
+    }
+
+    std::unique_ptr<juce::AccessibilityHandler> createAccessibilityHandler() override
+    {
+        return std::make_unique<juce::AccessibilityHandler>(*this, juce::AccessibilityRole::group);
     }
 
 private:

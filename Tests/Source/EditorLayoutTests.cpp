@@ -462,13 +462,13 @@ TEST_CASE("editor: every visible control has a title, a role, a one-line tooltip
         tooltipWindow = tooltipWindow || dynamic_cast<juce::TooltipWindow*>(c) != nullptr;
     CHECK(tooltipWindow);
 
-    // Every parameter has its control in the list.
+    // Every parameter has its control in the stage list.
     for (auto* param : p.getParameters())
     {
         auto* ranged = dynamic_cast<juce::RangedAudioParameter*>(param);
         REQUIRE(ranged != nullptr);
         INFO(ranged->getParameterID());
-        CHECK(kerf.parameterPanel().controlFor(ranged->getParameterID()) != nullptr);
+        CHECK(kerf.stageList().controlFor(ranged->getParameterID()) != nullptr);
     }
 
     int checked = 0;
@@ -483,7 +483,9 @@ TEST_CASE("editor: every visible control has a title, a role, a one-line tooltip
     };
     // Each page of the display, the section handles' value field open, the analyzer on.
     const int responsePage = run("response page");
-    CHECK(responsePage > p.getParameters().size()); // the list plus the editor's own
+    // Each stage-list row shows at least its switch and its type (rows of stages that are off
+    // are one compact line), plus the editor's own controls.
+    CHECK(responsePage > 2 * kerf.stageList().numRows());
     kerf.displayDeck().setPage(DisplayDeck::Page::zPlane);
     run("z-plane page");
     kerf.displayDeck().setPage(DisplayDeck::Page::impulse);
@@ -497,7 +499,16 @@ TEST_CASE("editor: every visible control has a title, a role, a one-line tooltip
     run("value field open");
     kerf.analyzerView().setAnalyzerOn(true, false);
     run("analyzer on");
-    std::printf("editor accessibility: %d visible controls audited over five states\n", checked);
+    // Every stage on: every row of the stage list shows its values.
+    for (int s = 0; s < kNumSectionSlots; ++s)
+        p.state().getParameter(ids::slotOn(s))->setValueNotifyingHost(1.0f);
+    for (int c = 0; c < kNumCombSlots; ++c)
+        p.state().getParameter(ids::comb(c, "on"))->setValueNotifyingHost(1.0f);
+    p.state().getParameter(ids::echoOn)->setValueNotifyingHost(1.0f);
+    kerf.stageList().refresh();
+    const int everyStage = run("every stage on");
+    CHECK(everyStage > responsePage);
+    std::printf("editor accessibility: %d visible controls audited over six states\n", checked);
 
     // The audit protects future controls: a bare slider or button fails it.
     juce::Slider bare;

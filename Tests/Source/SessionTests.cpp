@@ -85,6 +85,17 @@ dsp::ChainSpec parse(const char* text)
     return r.chain;
 }
 
+/// A component anywhere under `root` with this component ID.
+juce::Component* findDeep(juce::Component& root, const juce::String& id)
+{
+    if (root.getComponentID() == id)
+        return &root;
+    for (auto* child : root.getChildren())
+        if (auto* found = findDeep(*child, id))
+            return found;
+    return nullptr;
+}
+
 bool sameChain(const dsp::ChainSpec& a, const dsp::ChainSpec& b)
 {
     return chainToJson(a) == chainToJson(b);
@@ -637,7 +648,7 @@ TEST_CASE("editor: undo, redo, A/B and all flat are buttons that reach the proce
     REQUIRE(editor != nullptr);
     auto button = [&editor](const char* id)
     {
-        auto* b = dynamic_cast<juce::Button*>(editor->findChildWithID(id));
+        auto* b = dynamic_cast<juce::Button*>(findDeep(*editor, id)); // in the preset bar
         REQUIRE(b != nullptr);
         return b;
     };

@@ -452,6 +452,12 @@ TEST_CASE("preset bar: a factory preset sets the parameters the preset file hold
         CHECK(valueOf(p, ids::comb(c, "mix")) == Approx(comb.comb.mix));
     }
     CHECK(p.getCurrentProgram() == index + 1);
+    // A program chosen elsewhere (the host) shows in the box at the next tick.
+    p.setCurrentProgram(1);
+    bar.refresh();
+    CHECK(box->getSelectedId() == PresetBar::kFactoryBase);
+    CHECK(box->getText() == presets[0].name);
+    CHECK(p.undo());
     // One undo step takes it all back.
     CHECK(p.undo());
     CHECK(p.exportChain().numStages == 0);
@@ -562,4 +568,49 @@ TEST_CASE("preset bar: the protection indicator lights while the protection acts
         bar.refresh();
     CHECK_FALSE(bar.protectionActing());
     CHECK(label->getText() == "ceiling -1.0 dB");
+}
+
+// ---- In the editor -----------------------------------------------------------------------------
+
+TEST_CASE("editor: the stage list and the preset bar are the editor's controls",
+          "[editor][stagelist][presets]")
+{
+    JuceGuard guard;
+    KerfProcessor p;
+    REQUIRE(p.importChain(parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
+        {"type": "peaking", "freq_hz": 1500, "gain_db": 9, "q": 1.2}]})")
+                              .chain)
+                .isEmpty());
+    std::unique_ptr<juce::AudioProcessorEditor> editor(p.createEditor());
+    auto* kerf = dynamic_cast<KerfEditor*>(editor.get());
+    REQUIRE(kerf != nullptr);
+    for (const auto size : {juce::Point<int>(KerfEditor::kDefaultWidth, KerfEditor::kDefaultHeight),
+                            juce::Point<int>(KerfEditor::kMinWidth, KerfEditor::kMinHeight)})
+    {
+        editor->setSize(size.x, size.y);
+        auto& list = kerf->stageList();
+        auto& bar = kerf->presetBar();
+        CHECK(list.isVisible());
+        CHECK(bar.isVisible());
+        CHECK(editor->getLocalBounds().contains(list.getBounds()));
+        CHECK(editor->getLocalBounds().contains(bar.getBounds()));
+        CHECK_FALSE(list.getBounds().intersects(bar.getBounds()));
+        // The session buttons live in the bar, under their component IDs.
+        for (const char* id : {"undo", "redo", "compare", "allFlat", "protection", "preset"})
+        {
+            auto* c = findDeep(*editor, id);
+            INFO(id);
+            REQUIRE(c != nullptr);
+            CHECK(bar.isParentOf(c));
+        }
+    }
+    // A section row selects its handle on the response display.
+    auto& list = kerf->stageList();
+    list.selectRow(list.rowOf(StageList::Kind::section, 0));
+    CHECK(kerf->responseView().sectionHandles().selectedSlot() == 0);
+    // An edit in the list reaches the exported chain the display draws.
+    typeInto(*control<juce::Slider>(list, ids::slotGain(0)), "-6");
+    const auto chain = p.exportChain();
+    REQUIRE(chain.numStages == 1);
+    CHECK(chain.stages[0].gainDb == Approx(-6.0));
 }
