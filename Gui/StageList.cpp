@@ -2,7 +2,7 @@
 
 #include "Chain.h"
 #include "NotePitch.h"
-#include "ParameterPanel.h"
+#include "ParameterTooltips.h"
 #include "Parameters.h"
 #include "SectionHandles.h"
 
