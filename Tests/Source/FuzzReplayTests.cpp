@@ -52,6 +52,35 @@ template <typename Check> void replay(const char* target, int minSeeds, Check ch
         }
 }
 
+/// Runs body(processor) on a fresh KerfProcessor with JUCE's GUI set up and the processor's
+/// log messages (refused states) kept off the test output.
+template <typename Body> void withQuietProcessor(Body body)
+{
+    juce::ScopedJuceInitialiser_GUI init;
+    struct Quiet : juce::Logger
+    {
+        void logMessage(const juce::String&) override {}
+    } quiet;
+    juce::Logger::setCurrentLogger(&quiet);
+    {
+        KerfProcessor p;
+        body(p);
+    }
+    juce::Logger::setCurrentLogger(nullptr);
+}
+
+/// The bytes of a kept regression input.
+juce::MemoryBlock regressionInput(const char* target, const char* name)
+{
+    juce::MemoryBlock bytes;
+    REQUIRE(juce::File(KERF_SOURCE_DIR)
+                .getChildFile("Tests/fuzz/regressions")
+                .getChildFile(target)
+                .getChildFile(name)
+                .loadFileAsData(bytes));
+    return bytes;
+}
+
 } // namespace
 
 TEST_CASE("fuzz replay: chain files", "[fuzz]")
@@ -62,18 +91,12 @@ TEST_CASE("fuzz replay: chain files", "[fuzz]")
 
 TEST_CASE("fuzz replay: plugin state restore", "[fuzz]")
 {
-    juce::ScopedJuceInitialiser_GUI init;
-    struct Quiet : juce::Logger
-    {
-        void logMessage(const juce::String&) override {}
-    } quiet;
-    juce::Logger::setCurrentLogger(&quiet);
-    {
-        KerfProcessor p;
-        replay("plugin_state", 2,
-               [&p](const void* d, std::size_t n) { return fuzz::checkPluginState(p, d, n); });
-    }
-    juce::Logger::setCurrentLogger(nullptr);
+    withQuietProcessor(
+        [](KerfProcessor& p)
+        {
+            replay("plugin_state", 2,
+                   [&p](const void* d, std::size_t n) { return fuzz::checkPluginState(p, d, n); });
+        });
 }
 
 TEST_CASE("fuzz replay: audio input", "[fuzz]")
@@ -218,24 +241,15 @@ TEST_CASE("readNumber reads numbers like JUCE, without its overflow", "[fuzz]")
 
 TEST_CASE("fuzz regression: a saved state with an overlong exponent is refused", "[fuzz]")
 {
-    juce::ScopedJuceInitialiser_GUI init;
-    struct Quiet : juce::Logger
-    {
-        void logMessage(const juce::String&) override {}
-    } quiet;
-    juce::Logger::setCurrentLogger(&quiet);
-    {
-        KerfProcessor p;
-        juce::MemoryBlock bytes;
-        REQUIRE(juce::File(KERF_SOURCE_DIR)
-                    .getChildFile("Tests/fuzz/regressions/plugin_state")
-                    .getChildFile("exponent-overflows-juce-number-reader.state")
-                    .loadFileAsData(bytes));
-        p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
-        CHECK(p.lastStateProblem().contains("PARAM.value"));
-        CHECK(p.lastStateProblem().contains("exponent of 10 or more digits"));
-    }
-    juce::Logger::setCurrentLogger(nullptr);
+    withQuietProcessor(
+        [](KerfProcessor& p)
+        {
+            const auto bytes =
+                regressionInput("plugin_state", "exponent-overflows-juce-number-reader.state");
+            p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
+            CHECK(p.lastStateProblem().contains("PARAM.value"));
+            CHECK(p.lastStateProblem().contains("exponent of 10 or more digits"));
+        });
 }
 
 TEST_CASE("fuzz regression: a saved state whose text is not valid UTF-8 is refused", "[fuzz]")
@@ -244,35 +258,26 @@ TEST_CASE("fuzz regression: a saved state whose text is not valid UTF-8 is refus
     // announces (0xff: three) without looking for the terminating NUL, so its XML reader ran
     // past the buffer on this input (AddressSanitizer: heap-buffer-overflow). Well-formed
     // UTF-8: RFC 3629, section 4 (0xf8-0xff never appear; continuation bytes 10xxxxxx).
-    juce::ScopedJuceInitialiser_GUI init;
-    struct Quiet : juce::Logger
-    {
-        void logMessage(const juce::String&) override {}
-    } quiet;
-    juce::Logger::setCurrentLogger(&quiet);
-    {
-        KerfProcessor p;
-        juce::MemoryBlock bytes;
-        REQUIRE(juce::File(KERF_SOURCE_DIR)
-                    .getChildFile("Tests/fuzz/regressions/plugin_state")
-                    .getChildFile("malformed-utf8-reads-past-juce-xml-buffer.state")
-                    .loadFileAsData(bytes));
-        p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
-        CHECK(p.lastStateProblem().contains("not valid UTF-8"));
+    withQuietProcessor(
+        [](KerfProcessor& p)
+        {
+            const auto bytes =
+                regressionInput("plugin_state", "malformed-utf8-reads-past-juce-xml-buffer.state");
+            p.setStateInformation(bytes.getData(), static_cast<int>(bytes.getSize()));
+            CHECK(p.lastStateProblem().contains("not valid UTF-8"));
 
-        // A good state, then the same with text after its NUL: refused too.
-        juce::MemoryBlock good;
-        p.getStateInformation(good);
-        p.setStateInformation(good.getData(), static_cast<int>(good.getSize()));
-        CHECK(p.lastStateProblem().isEmpty());
-        juce::MemoryBlock trailing(good);
-        trailing.append("<x/>", 4);
-        const auto length = static_cast<juce::uint32>(trailing.getSize() - 8);
-        trailing.copyFrom(&length, 4, 4); // little-endian host (x86-64, AArch64)
-        p.setStateInformation(trailing.getData(), static_cast<int>(trailing.getSize()));
-        CHECK(p.lastStateProblem().contains("not valid UTF-8"));
-    }
-    juce::Logger::setCurrentLogger(nullptr);
+            // A good state, then the same with text after its NUL: refused too.
+            juce::MemoryBlock good;
+            p.getStateInformation(good);
+            p.setStateInformation(good.getData(), static_cast<int>(good.getSize()));
+            CHECK(p.lastStateProblem().isEmpty());
+            juce::MemoryBlock trailing(good);
+            trailing.append("<x/>", 4);
+            const auto length = static_cast<juce::uint32>(trailing.getSize() - 8);
+            trailing.copyFrom(&length, 4, 4); // little-endian host (x86-64, AArch64)
+            p.setStateInformation(trailing.getData(), static_cast<int>(trailing.getSize()));
+            CHECK(p.lastStateProblem().contains("not valid UTF-8"));
+        });
 }
 
 TEST_CASE("fuzz regression: echo-estimate reads no more than the file holds", "[fuzz][cli]")
