@@ -327,7 +327,7 @@ void ChainProcessor::freezeGlides(const Voice& v) noexcept
             setSectionCoeffs(idx, unfoldCoeffs(v));
         }
         else if (glides[i].on)
-            setSectionCoeffs(idx, glides[i].path.coeffsAt(glides[i].sAt(clock)));
+            setSectionCoeffs(idx, glides[i].path.coeffsAt(glides[i].tAt(clock)));
         else
             setSectionCoeffs(idx, coeffs[i]);
         glides[i].on = false;
@@ -403,16 +403,34 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         const int idx = st.live.first + j;
         Glide& g = glides[static_cast<std::size_t>(idx)];
         const SvfCoeffs target = toSvf(designed.sections[static_cast<std::size_t>(j)]);
-        // From where the section is on its path. Between two of its knots the new glide's
-        // first segment starts from the running cubic's values here (they differ from the
-        // path by the interpolation error only), so the values run on without a jump.
-        const SvfNatural from =
-            g.on ? g.path.at(g.sAt(clock)) : toNatural(coeffs[static_cast<std::size_t>(idx)]);
-        if (g.on && clock < g.knotEnd)
-            foldedNow(idx, rampKnot[static_cast<std::size_t>(idx)].v);
-        g.path = GlidePath(from, toNatural(target));
-        for (double& v : g.slope)
-            v = 0.0; // the transition curve starts at rest
+        // From where the section is on its path, and as fast as it moves there: a glide
+        // that takes over a running one starts with its velocity (GlidePath's bend), so
+        // the path has no kink (restarting from rest splattered whenever targets came
+        // faster than the glide time). Between two of the section's knots the new glide's
+        // first segment starts from the running cubic's values and slopes here (they differ
+        // from the path's by the interpolation error only); at a knot rampKnot and slope
+        // already hold the path's; a still section starts at rest.
+        SvfNatural from, velocity;
+        if (g.on)
+        {
+            const double t = g.tAt(clock);
+            from = g.path.at(t);
+            // d/dt of the old path per sample, then per unit of the new glide's t.
+            const double scale = g.invLen * static_cast<double>(len);
+            const SvfNatural v = g.path.velocityAt(t);
+            velocity = {v.logG * scale, v.logK * scale, v.mHigh * scale, v.mBand * scale,
+                        v.mLow * scale};
+            if (clock < g.knotEnd)
+                foldedNow(idx, rampKnot[static_cast<std::size_t>(idx)].v, g.slope);
+        }
+        else
+        {
+            from = toNatural(coeffs[static_cast<std::size_t>(idx)]);
+            velocity = {0.0, 0.0, 0.0, 0.0, 0.0};
+            for (double& v : g.slope)
+                v = 0.0;
+        }
+        g.path = GlidePath(from, toNatural(target), velocity);
         g.target = target;
         g.start = clock;
         g.len = len;
@@ -495,7 +513,7 @@ void ChainProcessor::update() noexcept
     struct Knot
     {
         int slot;
-        double dsdn; // ds/dn at the segment's end
+        double dtdn; // dt/dn of the glide's time fraction (1 / its length)
         int length;  // samples to the segment's end
     };
     std::array<Knot, kMaxSectionSlots> knots;
@@ -548,8 +566,7 @@ void ChainProcessor::update() noexcept
                 rampOrigin[u] = clock;
                 if (e < end)
                 {
-                    const double t = static_cast<double>(e - g.start) * g.invLen;
-                    knots[numKnots++] = {idx, transitionSlope(t) * g.invLen, length};
+                    knots[numKnots++] = {idx, g.invLen, length};
                 }
                 else
                 {
@@ -570,15 +587,15 @@ void ChainProcessor::update() noexcept
     {
         const int n = std::min(4, numKnots - b);
         const GlidePath* paths[4];
-        double s[4], end[4][6], endSlope[4][6];
+        double t[4], end[4][6], endSlope[4][6];
         for (int i = 0; i < n; ++i)
         {
             const Glide& g =
                 glides[static_cast<std::size_t>(knots[static_cast<std::size_t>(b + i)].slot)];
             paths[i] = &g.path;
-            s[i] = g.sAt(g.knotEnd);
+            t[i] = g.tAt(g.knotEnd);
         }
-        foldedAtBatch(paths, s, n, end, endSlope);
+        foldedAtBatch(paths, t, n, end, endSlope);
         for (int i = 0; i < n; ++i)
         {
             const Knot& kn = knots[static_cast<std::size_t>(b + i)];
@@ -586,7 +603,7 @@ void ChainProcessor::update() noexcept
             for (int m = 0; m < 6; ++m)
             {
                 e[m] = end[i][m];
-                es[m] = endSlope[i][m] * kn.dsdn;
+                es[m] = endSlope[i][m] * kn.dtdn;
             }
             startCubic(kn.slot, e, es, kn.length);
         }
@@ -638,13 +655,16 @@ void ChainProcessor::startCubic(int idx, const double end[8], const double endSl
     ramping[u] = true;
 }
 
-void ChainProcessor::foldedNow(int idx, double out[6]) const noexcept
+void ChainProcessor::foldedNow(int idx, double out[6], double* slope) const noexcept
 {
     const auto u = static_cast<std::size_t>(idx);
     const RampCubic& q = rampCubic[u];
     const double t = static_cast<double>(clock - rampOrigin[u]);
     for (int m = 0; m < 6; ++m)
         out[m] = q.c[0].v[m] + t * (q.c[1].v[m] + t * (q.c[2].v[m] + t * q.c[3].v[m]));
+    if (slope != nullptr)
+        for (int m = 0; m < 6; ++m)
+            slope[m] = q.c[1].v[m] + t * (2.0 * q.c[2].v[m] + t * 3.0 * q.c[3].v[m]);
 }
 
 void ChainProcessor::runSections(int channel, int firstSection, int count, double* x,

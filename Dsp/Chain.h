@@ -218,11 +218,8 @@ private:
         GlidePath path;
         double slope[8] = {}; // d(folded values)/dn at knotEnd (six, then two zeros)
         SvfCoeffs target;
-        /// Where along the path the section is at clock c (smoothstep of the time fraction).
-        double sAt(long long c) const noexcept
-        {
-            return transitionCurve(static_cast<double>(c - start) * invLen);
-        }
+        /// The time fraction of the glide at clock c (GlidePath's t).
+        double tAt(long long c) const noexcept { return static_cast<double>(c - start) * invLen; }
     };
     /// A section's coefficients for the stereo kernel, each value in both vector lanes,
     /// with the output mix folded: y = c0 v0 + c1 band + c2 low.
@@ -263,8 +260,9 @@ private:
     void update() noexcept; // at every update point while something moves
     /// Starts a segment's cubic: end values and slopes, six each then two zeros.
     void startCubic(int idx, const double end[8], const double endSlope[8], int length) noexcept;
-    /// A gliding section's folded values at the current clock, from its running cubic.
-    void foldedNow(int idx, double out[6]) const noexcept;
+    /// A gliding section's folded values at the current clock, from its running cubic, and
+    /// (if `slope` is given) their slopes per sample.
+    void foldedNow(int idx, double out[6], double* slope = nullptr) const noexcept;
     void runFading(int stage, int numChannels, int len) noexcept;
     void addVoice(const Voice& v, const double* wIn, const double* wOut, double* const* x,
                   double* const* acc, int numChannels, int len) noexcept;

@@ -95,77 +95,80 @@ GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept : from(a
     }
 }
 
-SvfNatural GlidePath::at(double s) const noexcept
+GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity) noexcept
+    : GlidePath(a, b)
 {
-    if (s <= 0.0)
-        return from;
-    if (s >= 1.0)
-        return to;
-    SvfNatural n;
-    n.logG = from.logG + s * (to.logG - from.logG);
-    n.logK = from.logK + s * (to.logK - from.logK);
-    // A weight that does not move (a peaking section's, 1 at both ends) costs nothing.
-    n.mHigh = from.mHigh == to.mHigh ? from.mHigh
-              : logHigh              ? signHigh * std::exp(logHigh0 + s * logHighStep)
-                                     : from.mHigh + s * (to.mHigh - from.mHigh);
-    n.mBand = from.mBand + s * (to.mBand - from.mBand);
-    n.mLow = from.mLow == to.mLow ? from.mLow
-             : logLow             ? signLow * std::exp(logLow0 + s * logLowStep)
-                                  : from.mLow + s * (to.mLow - from.mLow);
-    return n;
-}
-
-SvfCoeffs GlidePath::coeffsAt(double s) const noexcept
-{
-    return fromNatural(at(s));
+    bendG = velocity.logG;
+    bendK = velocity.logK;
+    // A weight in dB moves by d(log |m|)/dt = m'/m (a is not zero there: it shares b's sign).
+    bendHigh = logHigh ? velocity.mHigh / a.mHigh : velocity.mHigh;
+    bendBand = velocity.mBand;
+    bendLow = logLow ? velocity.mLow / a.mLow : velocity.mLow;
 }
 
 namespace
 {
-/// Whether the high (or low) weight moves in dB along the path: foldWithWeights then needs
-/// e^(l0 + s step) for it.
-bool highInDb(const GlidePath& p) noexcept
+/// Where a path is at time fraction t, before the exponentials: for each quantity its value
+/// in the path's coordinates and its rate d/dt (x(t) = x0 + step s(t) + bend B(t), so
+/// x'(t) = step s'(t) + bend B'(t)). The high and low weights either move in dB (db*: the
+/// weight is sign e^arg) or linearly (lin*, also a weight that does not move).
+struct PathPoint
 {
-    return p.from.mHigh != p.to.mHigh && p.logHigh;
-}
-bool lowInDb(const GlidePath& p) noexcept
-{
-    return p.from.mLow != p.to.mLow && p.logLow;
-}
+    double argG, rateG, argK, rateK;
+    double argH, rateH, linH, linHs;
+    double argL, rateL, linL, linLs;
+    double band, bandS;
+    bool dbH, dbL;
+};
 
-/// The weights' part of foldedAt (high and low outputs: constant, in dB or linear) and the
-/// folding of everything, given g, k, a1 and their derivatives, and for a weight that moves
-/// in dB its magnitude e^(l0 + s step) (expHigh, expLow; unused otherwise).
-void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k, double ks,
-                     double a1, double a1s, double expHigh, double expLow, double value[6],
-                     double slope[6]) noexcept
+PathPoint pathPoint(const GlidePath& p, double t) noexcept
 {
-    const SvfNatural& a = p.from;
-    const SvfNatural& b = p.to;
-    auto weight = [s](double from, double to, bool log, double sign, double e, double step,
-                      double& w, double& ws)
+    const double tc = std::clamp(t, 0.0, 1.0);
+    const double s = transitionCurve(tc), ds = transitionSlope(tc);
+    const double b = bendCurve(tc), db = bendSlope(tc);
+    PathPoint q{};
+    auto move = [&](double x0, double step, double bend, double& x, double& rate)
     {
-        if (from == to)
+        x = x0 + s * step + b * bend;
+        rate = ds * step + db * bend;
+    };
+    move(p.from.logG, p.to.logG - p.from.logG, p.bendG, q.argG, q.rateG);
+    move(p.from.logK, p.to.logK - p.from.logK, p.bendK, q.argK, q.rateK);
+    auto weight = [&](double from, double to, bool log, double l0, double step, double bend,
+                      bool& db, double& arg, double& rate, double& lin, double& linS)
+    {
+        db = false;
+        arg = rate = 0.0;
+        lin = from;
+        linS = 0.0;
+        if (from == to && bend == 0.0)
+            return; // a weight that does not move (a peaking section's 1) costs nothing
+        if (log)
         {
-            w = from;
-            ws = 0.0;
-        }
-        else if (log)
-        {
-            w = sign * e;
-            ws = w * step;
+            db = true;
+            move(l0, step, bend, arg, rate);
         }
         else
-        {
-            w = from + s * (to - from);
-            ws = to - from;
-        }
+            move(from, to - from, bend, lin, linS);
     };
-    double mh, mhs, ml, mls;
-    weight(a.mHigh, b.mHigh, p.logHigh, p.signHigh, expHigh, p.logHighStep, mh, mhs);
-    weight(a.mLow, b.mLow, p.logLow, p.signLow, expLow, p.logLowStep, ml, mls);
-    const double mb = s <= 0.0 ? a.mBand : s >= 1.0 ? b.mBand : a.mBand + s * (b.mBand - a.mBand);
-    const double mbs = b.mBand - a.mBand;
+    weight(p.from.mHigh, p.to.mHigh, p.logHigh, p.logHigh0, p.logHighStep, p.bendHigh, q.dbH,
+           q.argH, q.rateH, q.linH, q.linHs);
+    weight(p.from.mLow, p.to.mLow, p.logLow, p.logLow0, p.logLowStep, p.bendLow, q.dbL, q.argL,
+           q.rateL, q.linL, q.linLs);
+    move(p.from.mBand, p.to.mBand - p.from.mBand, p.bendBand, q.band, q.bandS);
+    // At the ends exactly the end points (from + (to - from) need not round to to).
+    if (t >= 1.0)
+        q.band = p.to.mBand;
+    else if (t <= 0.0)
+        q.band = p.from.mBand;
+    return q;
+}
+
+/// The folding of everything as the kernels fold it, given g, k, a1, the weights and their
+/// derivatives along t.
+void fold(double g, double gs, double k, double ks, double a1, double a1s, double mh, double mhs,
+          double mb, double mbs, double ml, double mls, double value[6], double slope[6]) noexcept
+{
     value[0] = a1;
     value[1] = g * a1;
     value[2] = g;
@@ -179,7 +182,43 @@ void foldWithWeights(const GlidePath& p, double s, double g, double gs, double k
     slope[4] = mbs - mhs * k - mh * ks;
     slope[5] = mls - mhs;
 }
+} // namespace
 
+SvfNatural GlidePath::at(double t) const noexcept
+{
+    if (t <= 0.0)
+        return from;
+    if (t >= 1.0)
+        return to;
+    const PathPoint q = pathPoint(*this, t);
+    SvfNatural n;
+    n.logG = q.argG;
+    n.logK = q.argK;
+    n.mHigh = q.dbH ? signHigh * std::exp(q.argH) : q.linH;
+    n.mBand = q.band;
+    n.mLow = q.dbL ? signLow * std::exp(q.argL) : q.linL;
+    return n;
+}
+
+SvfNatural GlidePath::velocityAt(double t) const noexcept
+{
+    const PathPoint q = pathPoint(*this, t);
+    SvfNatural v;
+    v.logG = q.rateG;
+    v.logK = q.rateK;
+    v.mHigh = q.dbH ? signHigh * std::exp(q.argH) * q.rateH : q.linHs;
+    v.mBand = q.bandS;
+    v.mLow = q.dbL ? signLow * std::exp(q.argL) * q.rateL : q.linLs;
+    return v;
+}
+
+SvfCoeffs GlidePath::coeffsAt(double t) const noexcept
+{
+    return fromNatural(at(t));
+}
+
+namespace
+{
 #if defined(__x86_64__) && defined(__GNUC__)
 /// e^x for four values (|x| < 700): x = n ln 2 + r with |r| <= ln 2 / 2 (Cody and Waite's
 /// two-part ln 2, fdlibm's constants, from memory), e^r by its Taylor series to r^12
@@ -206,68 +245,63 @@ __attribute__((target("avx,fma"))) __m256d exp4(__m256d x) noexcept
     return _mm256_mul_pd(p, scale);
 }
 
-/// A weight as foldWithWeights takes it, four lanes at once: linearly (a weight that does
-/// not move is its own linear path, exactly) or, in the lanes marked in `db`, sign e in dB.
+/// A weight as fold takes it, four lanes at once: linear (or still) lanes as pathPoint gave
+/// them, lanes marked in `db` (sign bit set) sign e^arg with slope sign e^arg rate.
 __attribute__((target("avx,fma"))) inline void
-weight4(__m256d s, const double* from, const double* lin, const double* sign, const double* db,
-        const double* e, const double* step, __m256d& w, __m256d& ws) noexcept
+weight4(bool any, const double* arg, const double* rate, const double* lin, const double* linS,
+        const double* sign, const double* db, __m256d& w, __m256d& ws) noexcept
 {
-    const __m256d linStep = _mm256_load_pd(lin);
-    const __m256d wLin = _mm256_fmadd_pd(s, linStep, _mm256_load_pd(from));
-    const __m256d wDb = _mm256_mul_pd(_mm256_load_pd(sign), _mm256_load_pd(e));
+    w = _mm256_load_pd(lin);
+    ws = _mm256_load_pd(linS);
+    if (!any)
+        return;
+    const __m256d wDb = _mm256_mul_pd(_mm256_load_pd(sign), exp4(_mm256_load_pd(arg)));
     const __m256d mask = _mm256_load_pd(db);
-    w = _mm256_blendv_pd(wLin, wDb, mask);
-    ws = _mm256_blendv_pd(linStep, _mm256_mul_pd(wDb, _mm256_load_pd(step)), mask);
+    w = _mm256_blendv_pd(w, wDb, mask);
+    ws = _mm256_blendv_pd(ws, _mm256_mul_pd(wDb, _mm256_load_pd(rate)), mask);
 }
 
-__attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* s,
+__attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* t,
                                                   int count, double (*value)[6],
                                                   double (*slope)[6]) noexcept
 {
-    alignas(32) double lg[4], dg[4], lk[4], dk[4], sv[4], lh[4], dh[4], ll[4], dl[4];
-    // The weights: high and low from, step (linear) and sign (in dB) with the lanes moving
-    // in dB marked; band from and step.
-    alignas(32) double hFrom[4], hLin[4], hSign[4], hDb[4], lFrom[4], lLin[4], lSign[4], lDb[4],
-        bFrom[4], bTo[4];
+    // Each lane's point before the exponentials (pathPoint, scalar), then the exponentials,
+    // the division and the fold of all four lanes in one vector each.
+    alignas(32) double argG[4], rateG[4], argK[4], rateK[4], argH[4], rateH[4], linH[4], linHs[4],
+        signH[4], dbH[4], argL[4], rateL[4], linL[4], linLs[4], signL[4], dbL[4], band[4], bandS[4];
     bool anyHigh = false, anyLow = false;
     for (int i = 0; i < 4; ++i)
     {
         const GlidePath& p = *paths[i < count ? i : 0];
-        const double si = std::clamp(s[i < count ? i : 0], 0.0, 1.0);
-        lg[i] = p.from.logG;
-        dg[i] = p.to.logG - p.from.logG;
-        lk[i] = p.from.logK;
-        dk[i] = p.to.logK - p.from.logK;
-        sv[i] = si;
-        const bool high = highInDb(p), low = lowInDb(p);
-        anyHigh = anyHigh || high;
-        anyLow = anyLow || low;
-        lh[i] = high ? p.logHigh0 : 0.0;
-        dh[i] = high ? p.logHighStep : 0.0;
-        ll[i] = low ? p.logLow0 : 0.0;
-        dl[i] = low ? p.logLowStep : 0.0;
-        hFrom[i] = p.from.mHigh;
-        hLin[i] = p.to.mHigh - p.from.mHigh;
-        hSign[i] = p.signHigh;
-        hDb[i] = high ? -1.0 : 0.0; // sign bit set (blendv) where the weight moves in dB
-        lFrom[i] = p.from.mLow;
-        lLin[i] = p.to.mLow - p.from.mLow;
-        lSign[i] = p.signLow;
-        lDb[i] = low ? -1.0 : 0.0;
-        bFrom[i] = p.from.mBand;
-        bTo[i] = p.to.mBand;
+        const PathPoint q = pathPoint(p, t[i < count ? i : 0]);
+        argG[i] = q.argG;
+        rateG[i] = q.rateG;
+        argK[i] = q.argK;
+        rateK[i] = q.rateK;
+        argH[i] = q.argH;
+        rateH[i] = q.rateH;
+        linH[i] = q.linH;
+        linHs[i] = q.linHs;
+        signH[i] = p.signHigh;
+        dbH[i] = q.dbH ? -1.0 : 0.0; // sign bit set (blendv) where the weight moves in dB
+        argL[i] = q.argL;
+        rateL[i] = q.rateL;
+        linL[i] = q.linL;
+        linLs[i] = q.linLs;
+        signL[i] = p.signLow;
+        dbL[i] = q.dbL ? -1.0 : 0.0;
+        band[i] = q.band;
+        bandS[i] = q.bandS;
+        anyHigh = anyHigh || q.dbH;
+        anyLow = anyLow || q.dbL;
     }
-    const __m256d sv4 = _mm256_load_pd(sv);
-    // The weights that move in dB: their magnitudes, four at a time.
-    alignas(32) double eh[4] = {1.0, 1.0, 1.0, 1.0}, el[4] = {1.0, 1.0, 1.0, 1.0};
-    if (anyHigh)
-        _mm256_store_pd(eh, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dh), _mm256_load_pd(lh))));
-    if (anyLow)
-        _mm256_store_pd(el, exp4(_mm256_fmadd_pd(sv4, _mm256_load_pd(dl), _mm256_load_pd(ll))));
-    const __m256d dg4 = _mm256_load_pd(dg), dk4 = _mm256_load_pd(dk);
-    const __m256d g = exp4(_mm256_fmadd_pd(sv4, dg4, _mm256_load_pd(lg)));
-    const __m256d k = exp4(_mm256_fmadd_pd(sv4, dk4, _mm256_load_pd(lk)));
-    const __m256d gs = _mm256_mul_pd(g, dg4), ks = _mm256_mul_pd(k, dk4);
+    __m256d mh, mhs, ml, mls;
+    weight4(anyHigh, argH, rateH, linH, linHs, signH, dbH, mh, mhs);
+    weight4(anyLow, argL, rateL, linL, linLs, signL, dbL, ml, mls);
+    const __m256d g = exp4(_mm256_load_pd(argG));
+    const __m256d k = exp4(_mm256_load_pd(argK));
+    const __m256d gs = _mm256_mul_pd(g, _mm256_load_pd(rateG)),
+                  ks = _mm256_mul_pd(k, _mm256_load_pd(rateK));
     const __m256d one = _mm256_set1_pd(1.0);
     const __m256d a1 = _mm256_div_pd(one, _mm256_fmadd_pd(g, _mm256_add_pd(g, k), one));
     // a1' = -a1^2 (2 g g' + g' k + g k')
@@ -275,14 +309,7 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         _mm256_fmadd_pd(g, ks, _mm256_mul_pd(gs, _mm256_add_pd(_mm256_add_pd(g, g), k)));
     const __m256d a1s =
         _mm256_mul_pd(_mm256_sub_pd(_mm256_setzero_pd(), _mm256_mul_pd(a1, a1)), inner);
-    __m256d mh, mhs, ml, mls;
-    weight4(sv4, hFrom, hLin, hSign, hDb, eh, dh, mh, mhs);
-    weight4(sv4, lFrom, lLin, lSign, lDb, el, dl, ml, mls);
-    const __m256d bFrom4 = _mm256_load_pd(bFrom), bTo4 = _mm256_load_pd(bTo);
-    const __m256d mbs = _mm256_sub_pd(bTo4, bFrom4);
-    // At s = 1 exactly the end value (from + (to - from) need not round to it).
-    const __m256d mb = _mm256_blendv_pd(_mm256_fmadd_pd(sv4, mbs, bFrom4), bTo4,
-                                        _mm256_cmp_pd(sv4, one, _CMP_GE_OQ));
+    const __m256d mb = _mm256_load_pd(band), mbs = _mm256_load_pd(bandS);
     const __m256d v[6] = {a1, _mm256_mul_pd(g, a1),        g,
                           mh, _mm256_fnmadd_pd(mh, k, mb), _mm256_sub_pd(ml, mh)};
     const __m256d d[6] = {
@@ -310,34 +337,41 @@ bool hasAvxFma() noexcept
 #endif
 } // namespace
 
-void GlidePath::foldedAt(double s, double value[6], double slope[6]) const noexcept
+void GlidePath::foldedAt(double t, double value[6], double slope[6]) const noexcept
 {
-    // g, k and a1 = 1 / (1 + g (g + k)) with their derivatives along s (chain rule), then
+    // g, k and a1 = 1 / (1 + g (g + k)) with their derivatives along t (chain rule), then
     // the weights and the fold as the kernels fold them.
-    const double sc = std::clamp(s, 0.0, 1.0);
-    const double g = std::exp(from.logG + sc * (to.logG - from.logG)),
-                 gs = g * (to.logG - from.logG);
-    const double k = std::exp(from.logK + sc * (to.logK - from.logK)),
-                 ks = k * (to.logK - from.logK);
+    const PathPoint q = pathPoint(*this, t);
+    const double g = std::exp(q.argG), gs = g * q.rateG;
+    const double k = std::exp(q.argK), ks = k * q.rateK;
     const double a1 = 1.0 / (1.0 + g * (g + k));
     const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
-    const double eh = highInDb(*this) ? std::exp(logHigh0 + sc * logHighStep) : 1.0;
-    const double el = lowInDb(*this) ? std::exp(logLow0 + sc * logLowStep) : 1.0;
-    foldWithWeights(*this, sc, g, gs, k, ks, a1, a1s, eh, el, value, slope);
+    double mh = q.linH, mhs = q.linHs, ml = q.linL, mls = q.linLs;
+    if (q.dbH)
+    {
+        mh = signHigh * std::exp(q.argH);
+        mhs = mh * q.rateH;
+    }
+    if (q.dbL)
+    {
+        ml = signLow * std::exp(q.argL);
+        mls = ml * q.rateL;
+    }
+    fold(g, gs, k, ks, a1, a1s, mh, mhs, q.band, q.bandS, ml, mls, value, slope);
 }
 
-void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, double (*value)[6],
+void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, double (*value)[6],
                    double (*slope)[6]) noexcept
 {
 #if defined(__x86_64__) && defined(__GNUC__)
     if (count > 0 && hasAvxFma())
     {
-        foldedAt4(paths, s, std::min(count, 4), value, slope);
+        foldedAt4(paths, t, std::min(count, 4), value, slope);
         return;
     }
 #endif
     for (int i = 0; i < std::min(count, 4); ++i)
-        paths[i]->foldedAt(s[i], value[i], slope[i]);
+        paths[i]->foldedAt(t[i], value[i], slope[i]);
 }
 
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept

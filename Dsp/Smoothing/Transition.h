@@ -20,6 +20,8 @@
 //    100 Hz sine leaves -4 dBFS above 1 kHz; the same move as a crossfade, -124 dBFS).
 #include "../Stages/SvfSection.h"
 
+#include <algorithm>
+
 namespace kerf::dsp
 {
 
@@ -88,6 +90,28 @@ constexpr double transitionSlope(double t) noexcept
     return 140.0 * a * a * a;
 }
 
+/// The bend shape B(t) = t (1 - t)^4 on [0, 1]: B(0) = 0 and B'(0) = 1, while B and its
+/// first three derivatives vanish at t = 1 (the factor (1 - t)^4), so a glide that starts
+/// with a velocity adds bend * B(t) to its smoothstep path and still lands as the
+/// smoothstep does (a polynomial with those end conditions, common practice). Its largest
+/// value, at t = 1/5, is 4^4/5^5 = 0.082.
+constexpr double bendCurve(double t) noexcept
+{
+    if (t <= 0.0 || t >= 1.0)
+        return 0.0;
+    const double u = 1.0 - t;
+    return t * (u * u) * (u * u);
+}
+
+/// dB/dt of bendCurve: (1 - t)^3 (1 - 5 t); 1 at t = 0, 0 at t = 1.
+constexpr double bendSlope(double t) noexcept
+{
+    if (t >= 1.0)
+        return 0.0;
+    const double u = 1.0 - std::max(t, 0.0);
+    return u * u * u * (1.0 - 5.0 * std::max(t, 0.0));
+}
+
 /// Length of a move in samples for a glide time (ms) at a rate: at least kMinTransitionMs,
 /// rounded up to whole update intervals.
 int transitionSamples(double glideMs, double sampleRateHz) noexcept;
@@ -109,32 +133,46 @@ SvfNatural blend(const SvfNatural& a, const SvfNatural& b, double s) noexcept;
 /// Processing coefficients of a natural point.
 SvfCoeffs fromNatural(const SvfNatural& n) noexcept;
 
-/// A glide from a to b prepared once, so that each point along it costs four exponentials
-/// and a division (the logarithms blend() takes at every call are taken here, once).
-/// coeffsAt(s) equals fromNatural(blend(a, b, s)) up to rounding.
+/// A glide from a to b over the time fraction t in [0, 1], prepared once, so that each point
+/// along it costs four exponentials and a division (the logarithms blend() takes at every
+/// call are taken here, once). In the path's coordinates (log g, log k, the high and low
+/// weights in dB when both ends share a sign, else linear, the band weight linearly) the
+/// point at t is from + (to - from) s(t) + bend B(t), s the transition curve and B the bend
+/// shape: a glide that starts from rest (bend 0) is blend(a, b, s(t)); a glide that takes
+/// over a running one starts with its velocity (bend = that velocity in these coordinates
+/// per unit t), so the section's values and slopes run on without a kink.
 struct GlidePath
 {
     SvfNatural from, to;
     double logHigh0 = 0.0, logHighStep = 0.0, signHigh = 1.0; // |mHigh| in log when logHigh
     double logLow0 = 0.0, logLowStep = 0.0, signLow = 1.0;
     bool logHigh = false, logLow = false;
+    /// The start velocity d/dt in the path's coordinates (log g, log k, high weight in log
+    /// magnitude when logHigh else linear, band, low as high).
+    double bendG = 0.0, bendK = 0.0, bendHigh = 0.0, bendBand = 0.0, bendLow = 0.0;
 
     GlidePath() = default;
+    /// A glide from rest.
     GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept;
-    /// The natural point a fraction s of the way (as blend(from, to, s)).
-    SvfNatural at(double s) const noexcept;
-    /// Processing coefficients a fraction s of the way.
-    SvfCoeffs coeffsAt(double s) const noexcept;
-    /// The folded kernel values (a1, a2, g, c0, c1, c2; Chain.cpp) a fraction s of the way
-    /// and their derivatives with respect to s, exact (chain rule through the exponentials
-    /// and a1 = 1 / (1 + g (g + k))).
-    void foldedAt(double s, double value[6], double slope[6]) const noexcept;
+    /// A glide that starts with `velocity`: d/dt at t = 0 of log g, log k and of the plain
+    /// weights mHigh, mBand, mLow (as velocityAt gives them).
+    GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity) noexcept;
+    /// The natural point at time fraction t (blend(from, to, s(t)) without a bend).
+    SvfNatural at(double t) const noexcept;
+    /// d/dt of the natural point at t: of log g, log k and the plain weights.
+    SvfNatural velocityAt(double t) const noexcept;
+    /// Processing coefficients at t.
+    SvfCoeffs coeffsAt(double t) const noexcept;
+    /// The folded kernel values (a1, a2, g, c0, c1, c2; Chain.cpp) at t and their
+    /// derivatives with respect to t, exact (chain rule through s(t), B(t), the
+    /// exponentials and a1 = 1 / (1 + g (g + k))).
+    void foldedAt(double t, double value[6], double slope[6]) const noexcept;
 };
 
 /// foldedAt for up to four paths at once: the exponentials and the division of all four in
 /// one vector each where the CPU has AVX and FMA (otherwise one path at a time). Values
 /// agree with foldedAt to a few units in the last place.
-void foldedAtBatch(const GlidePath* const* paths, const double* s, int count, double (*value)[6],
+void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, double (*value)[6],
                    double (*slope)[6]) noexcept;
 
 /// Whether a section stage may glide from settings a to b (same structure, moderate move:

@@ -137,15 +137,17 @@ TEST_CASE("smoothing: glides move in the natural domain", "[smoothing]")
 TEST_CASE("smoothing: a glide path's slope is the derivative of its values", "[smoothing]")
 {
     // GlidePath::foldedAt gives the folded kernel values and their derivatives along the
-    // path (the parabolic steps start from them). Checked against central differences
-    // (error O(h^2); common practice) on paths between random designs of every gliding
-    // type, its values against fromNatural(at(s)) folded as the kernels fold them, and the
-    // four-at-a-time form against the one-at-a-time form.
+    // path's time fraction t (the Hermite cubics between knots take them). Checked against
+    // central differences (error O(h^2); common practice) on paths between random designs
+    // of every gliding type, from rest and with a start velocity (bend), its values against
+    // fromNatural(at(t)) folded as the kernels fold them, and the four-at-a-time form
+    // against the one-at-a-time form.
     std::mt19937 rng(777);
     std::uniform_real_distribution<double> u(0.0, 1.0);
     const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
                                StageType::notch,   StageType::bandPass, StageType::tilt};
     int checked = 0;
+    std::array<GlidePath, 4> recent{};
     for (int trial = 0; trial < 300; ++trial)
     {
         StageSpec a;
@@ -160,16 +162,59 @@ TEST_CASE("smoothing: a glide path's slope is the derivative of its values", "[s
         const auto da = designStage(a, kFs), db = designStage(b, kFs);
         if (da.count != 1 || db.count != 1)
             continue;
-        const GlidePath path(toNatural(toSvf(da.sections[0])), toNatural(toSvf(db.sections[0])));
-        // The four-at-a-time form (vector exponential) against the one-at-a-time form.
+        const SvfNatural na = toNatural(toSvf(da.sections[0])),
+                         nb = toNatural(toSvf(db.sections[0]));
+        // Half the paths start from rest, half with a velocity (a glide that takes over a
+        // running one): d/dt of log g, log k and the plain weights, of the size a glide
+        // between such designs reaches (the smoothstep's peak rate is 35/16 of the move).
+        SvfNatural velocity{0.0, 0.0, 0.0, 0.0, 0.0};
+        if (trial % 2 == 1)
+        {
+            auto r = [&] { return 2.0 * u(rng) - 1.0; };
+            velocity = {2.0 * r(), 2.0 * r(), 2.0 * na.mHigh * r(), 2.0 * r(), 2.0 * na.mLow * r()};
+        }
+        const GlidePath path(na, nb, velocity);
+        // Its ends and its start velocity: at(0) is the start, at(1) the end, and the
+        // path's derivative at 0 (one-sided difference, error O(h); common practice) is
+        // the velocity it was given.
+        {
+            const SvfNatural a0 = path.at(0.0), a1 = path.at(1.0);
+            CHECK(a0.logG == na.logG);
+            CHECK(a1.logG == nb.logG);
+            CHECK(a1.mLow == nb.mLow);
+            const double h = 1e-7;
+            const SvfNatural ah = path.at(h), v0 = path.velocityAt(0.0);
+            const double want[5] = {velocity.logG, velocity.logK, velocity.mHigh, velocity.mBand,
+                                    velocity.mLow};
+            const double got[5] = {v0.logG, v0.logK, v0.mHigh, v0.mBand, v0.mLow};
+            const double numeric[5] = {(ah.logG - na.logG) / h, (ah.logK - na.logK) / h,
+                                       (ah.mHigh - na.mHigh) / h, (ah.mBand - na.mBand) / h,
+                                       (ah.mLow - na.mLow) / h};
+            for (int m = 0; m < 5; ++m)
+            {
+                INFO("trial " << trial << ", start velocity " << m);
+                CHECK(got[m] == Approx(want[m]).margin(1e-12));
+                CHECK(std::abs(numeric[m] - want[m]) <= 1e-5 * (1.0 + std::abs(want[m])));
+            }
+            const SvfNatural v1 = path.velocityAt(1.0);
+            CHECK(v1.logG == 0.0);
+            CHECK(v1.mBand == 0.0);
+        }
+        // The four-at-a-time form (vector exponential) against the one-at-a-time form: this
+        // path four times, and the last four paths side by side (types, bends and weights
+        // moving in dB or linearly mixed across the lanes).
+        recent[static_cast<std::size_t>(checked % 4)] = path;
         const GlidePath* four[4] = {&path, &path, &path, &path};
+        if (checked >= 3 && trial % 3 == 0)
+            for (int i = 0; i < 4; ++i)
+                four[i] = &recent[static_cast<std::size_t>(i)];
         const double at4[4] = {0.1, 0.37, 0.5, 0.81};
         double v4[4][6], d4[4][6];
         foldedAtBatch(four, at4, 4, v4, d4);
         for (int i = 0; i < 4; ++i)
         {
             double v[6], d[6];
-            path.foldedAt(at4[i], v, d);
+            four[i]->foldedAt(at4[i], v, d);
             for (int m = 0; m < 6; ++m)
             {
                 INFO("batch " << i << " value " << m << ": " << v4[i][m] << " vs " << v[m]);
@@ -178,7 +223,7 @@ TEST_CASE("smoothing: a glide path's slope is the derivative of its values", "[s
                 CHECK(std::abs(d4[i][m] - d[m]) <= 1e-12 * (1.0 + std::abs(d[m])));
             }
         }
-        for (const double s : {0.1, 0.37, 0.5, 0.81})
+        for (const double s : {0.1, 0.37, 0.5, 0.81, 0.97})
         {
             double v[6], d[6], vp[6], vm[6], unused[6];
             path.foldedAt(s, v, d);
@@ -344,16 +389,15 @@ TEST_CASE("smoothing: the processor stays finite and decays under random moves a
 
 namespace
 {
-/// The tone for `seconds` through the chain `c`, changed by `change(c)` every 50 ms from
-/// 0.3 s on: Kerf's processor (stereo, 512-sample blocks, the given glide time) or the
-/// direct-form comparator with the changes simply applied.
-template <typename Change>
+/// The tone for `seconds` through the chain `c`, changed by `change(c)` from 0.3 s on, the
+/// changes `interval()` samples apart: Kerf's processor (stereo, 512-sample blocks, the
+/// given glide time) or the direct-form comparator with the changes simply applied.
+template <typename Change, typename Interval>
 std::vector<double> renderMoving(bool kerfLayer, double seconds, double glideMs, ChainSpec c,
-                                 Change change)
+                                 Change change, Interval interval)
 {
     const auto tone = kerf::test::testTone(kFs, seconds);
     const int n = static_cast<int>(tone.size());
-    const int every = static_cast<int>(0.050 * kFs);
     const int first = static_cast<int>(0.3 * kFs);
     ChainProcessor p;
     p.prepare(kFs, 512, 2);
@@ -364,7 +408,7 @@ std::vector<double> renderMoving(bool kerfLayer, double seconds, double glideMs,
     std::vector<double> out(tone), r(tone);
     for (int start = 0; start < n;)
     {
-        const int next = std::min(start < first ? first : start + every, n);
+        const int next = std::min(start < first ? first : start + interval(), n);
         if (start >= first)
         {
             change(c);
@@ -386,6 +430,15 @@ std::vector<double> renderMoving(bool kerfLayer, double seconds, double glideMs,
         start = next;
     }
     return out;
+}
+
+/// As above, a change every 50 ms.
+template <typename Change>
+std::vector<double> renderMoving(bool kerfLayer, double seconds, double glideMs, ChainSpec c,
+                                 Change change)
+{
+    return renderMoving(kerfLayer, seconds, glideMs, c, change,
+                        [] { return static_cast<int>(0.050 * kFs); });
 }
 
 /// Renders the splatter test: the tone through 8 sections whose settings jump at random
@@ -524,11 +577,9 @@ namespace
 /// step away (frequency within an octave, gain within 12 dB, Q within a factor of two),
 /// kept inside the full ranges, so that every change glides. Kerf's processor (stereo,
 /// 512-sample blocks) or the direct-form comparator.
-std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
-                                double glideMs = kDefaultGlideMs)
+/// The 8 sections the hand and the automation move (peaking, shelves; both designs).
+ChainSpec handChain()
 {
-    std::mt19937 rng(seed);
-    std::uniform_real_distribution<double> u(-1.0, 1.0);
     const StageType types[] = {StageType::peaking, StageType::lowShelf, StageType::highShelf,
                                StageType::peaking};
     ChainSpec c;
@@ -543,8 +594,16 @@ std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
         s.design = i % 3 ? DesignMode::accurate : DesignMode::bilinear;
         c.push(s);
     }
+    return c;
+}
+
+std::vector<double> renderDrags(bool kerfLayer, unsigned seed, double seconds,
+                                double glideMs = kDefaultGlideMs)
+{
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<double> u(-1.0, 1.0);
     return renderMoving(
-        kerfLayer, seconds, glideMs, c,
+        kerfLayer, seconds, glideMs, handChain(),
         [&](ChainSpec& chain)
         {
             for (int i = 0; i < 8; ++i)
@@ -596,6 +655,118 @@ TEST_CASE("smoothing: splatter bar for glides (a hand moving every section every
             kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0, ms), kFs, 0.25);
         WARN("splatter, glides at glide time " << ms << " ms: Kerf " << longer << " dBFS");
         CHECK(longer <= -80.0);
+    }
+}
+
+namespace
+{
+/// Host automation: every parameter of the 8 sections follows its own automation line
+/// (log frequency, gain in dB, log Q, log slope), straight segments 50 - 400 ms long at
+/// random rates (up to 4 octaves, 48 dB, 3 octaves of Q and of slope per second), turning
+/// back at the ends of the ranges; the host sends the lines' values every 10 - 20 ms
+/// (random), as hosts that send one value per block do. Every change glides.
+std::vector<double> renderRamps(bool kerfLayer, unsigned seed, double seconds, double glideMs)
+{
+    std::mt19937 rng(seed);
+    std::uniform_real_distribution<double> u(0.0, 1.0);
+    struct Lane
+    {
+        double value = 0.0, rate = 0.0, left = 0.0, lo = 0.0, hi = 0.0, maxRate = 0.0;
+    };
+    const ChainSpec start = handChain();
+    std::array<std::array<Lane, 4>, 8> lanes{};
+    for (int i = 0; i < 8; ++i)
+    {
+        const StageSpec& s = start.stages[static_cast<std::size_t>(i)];
+        const bool boost = s.gainDb > 0.0;
+        lanes[static_cast<std::size_t>(i)] = {
+            Lane{std::log2(s.freqHz), 0.0, 0.0, std::log2(20.0), std::log2(20000.0), 4.0},
+            Lane{s.gainDb, 0.0, 0.0, boost ? 0.5 : -18.0, boost ? 18.0 : -0.5, 48.0},
+            Lane{std::log2(s.q), 0.0, 0.0, std::log2(0.3), std::log2(10.0), 3.0},
+            Lane{std::log2(s.slope), 0.0, 0.0, std::log2(0.1), 0.0, 3.0}};
+    }
+    // renderMoving asks for the gap to the next change just before it applies a change:
+    // the change moves the lines on by the gap drawn before.
+    int gap = 0, elapsed = 0;
+    auto interval = [&]
+    {
+        elapsed = gap;
+        gap = static_cast<int>((0.010 + 0.010 * u(rng)) * kFs);
+        return gap;
+    };
+    return renderMoving(
+        kerfLayer, seconds, glideMs, start,
+        [&](ChainSpec& chain)
+        {
+            for (int i = 0; i < 8; ++i)
+            {
+                StageSpec& s = chain.stages[static_cast<std::size_t>(i)];
+                const StageSpec before = s;
+                for (Lane& l : lanes[static_cast<std::size_t>(i)])
+                {
+                    double dt = elapsed / kFs;
+                    while (dt > 0.0)
+                    {
+                        if (l.left <= 0.0)
+                        {
+                            l.rate = l.maxRate * (2.0 * u(rng) - 1.0);
+                            l.left = 0.05 + 0.35 * u(rng);
+                        }
+                        const double step = std::min(dt, l.left);
+                        l.value += l.rate * step;
+                        if (l.value > l.hi || l.value < l.lo)
+                        {
+                            l.value = std::clamp(l.value, l.lo, l.hi);
+                            l.rate = -l.rate; // turns back at the end of the range
+                        }
+                        l.left -= step;
+                        dt -= step;
+                    }
+                }
+                const auto& v = lanes[static_cast<std::size_t>(i)];
+                s.freqHz = std::exp2(v[0].value);
+                s.gainDb = v[1].value;
+                s.q = std::exp2(v[2].value);
+                s.slope = std::exp2(v[3].value);
+                REQUIRE(sectionsCanGlide(before, s));
+            }
+        },
+        interval);
+}
+} // namespace
+
+TEST_CASE("smoothing: splatter bar for glides retargeted before they end", "[smoothing]")
+{
+    // The issue's splatter bar (100 Hz at -6 dBFS, 8 sections, 10 s, <= -80 dBFS above
+    // 1 kHz in every 10 ms window) when new targets come faster than the glide time, so
+    // that every glide is taken over half-way: the hand of the test above (every 50 ms)
+    // with 80 ms glides, and host automation ramps (every 10 - 20 ms) with 20 ms (the
+    // default) and 80 ms glides; instant switching in direct form measures at least 30 dB
+    // worse. The layer before a new glide carried the running path's velocity (each glide
+    // restarted from rest, a kink in every coefficient's path) measured, with this test:
+    // 80 ms hand -49.7 dBFS, ramps -69.0 dBFS at 20 ms and -78.5 dBFS at 80 ms, so the test
+    // fails there; carrying the velocity: -90.9, -95.4 and -110.4 dBFS.
+    const unsigned seed = 2718u;
+    INFO("seed " << seed);
+    const double hand =
+        kerf::test::worstSplatterDbfs(renderDrags(true, seed, 10.0, 80.0), kFs, 0.25);
+    const double handDirect =
+        kerf::test::worstSplatterDbfs(renderDrags(false, seed, 10.0), kFs, 0.25);
+    WARN("splatter, glides of 80 ms retargeted every 50 ms: Kerf " << hand << " dBFS, direct form "
+                                                                   << handDirect << " dBFS");
+    CHECK(hand <= -80.0);
+    CHECK(handDirect >= hand + 30.0);
+    const double rampsDirect =
+        kerf::test::worstSplatterDbfs(renderRamps(false, seed, 10.0, 0.0), kFs, 0.25);
+    for (const double ms : {kDefaultGlideMs, 80.0})
+    {
+        INFO("glide time " << ms << " ms");
+        const double ramps =
+            kerf::test::worstSplatterDbfs(renderRamps(true, seed, 10.0, ms), kFs, 0.25);
+        WARN("splatter, automation ramps every 10 - 20 ms, glides of "
+             << ms << " ms: Kerf " << ramps << " dBFS, direct form " << rampsDirect << " dBFS");
+        CHECK(ramps <= -80.0);
+        CHECK(rampsDirect >= ramps + 30.0);
     }
 }
 
