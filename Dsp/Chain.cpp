@@ -624,8 +624,8 @@ void ChainProcessor::startCubic(int idx, const double end[8], const double endSl
     // The Hermite cubic from here (exact values, the slope the last knot found) to the
     // next knot: v(n) = b + s0 n + c2 n^2 + c3 n^3 with v(K) = end, v'(K) = endSlope.
     const double K = length;
-    // Powers of two in the usual case, where these inverses are exact.
-    const double inv2 = 1.0 / (K * K), inv3 = inv2 / K;
+    // One division (powers of two in the usual case, where these inverses are exact).
+    const double inv = 1.0 / K, inv2 = inv * inv, inv3 = inv2 * inv;
     const auto u = static_cast<std::size_t>(idx);
     Glide& g = glides[u];
     RampCubic& q = rampCubic[u];

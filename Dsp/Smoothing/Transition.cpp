@@ -77,94 +77,76 @@ bool sameSign(double a, double b) noexcept
 }
 } // namespace
 
-GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept : from(a), to(b)
+GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept
+    : GlidePath(a, b, SvfNatural{0.0, 0.0, 0.0, 0.0, 0.0})
 {
-    logHigh = sameSign(a.mHigh, b.mHigh);
-    if (logHigh)
-    {
-        logHigh0 = std::log(std::abs(a.mHigh));
-        logHighStep = std::log(std::abs(b.mHigh)) - logHigh0;
-        signHigh = a.mHigh > 0.0 ? 1.0 : -1.0;
-    }
-    logLow = sameSign(a.mLow, b.mLow);
-    if (logLow)
-    {
-        logLow0 = std::log(std::abs(a.mLow));
-        logLowStep = std::log(std::abs(b.mLow)) - logLow0;
-        signLow = a.mLow > 0.0 ? 1.0 : -1.0;
-    }
 }
 
 GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity) noexcept
-    : GlidePath(a, b)
+    : from(a), to(b)
 {
-    bendG = velocity.logG;
-    bendK = velocity.logK;
-    // A weight in dB moves by d(log |m|)/dt = m'/m (a is not zero there: it shares b's sign).
-    bendHigh = logHigh ? velocity.mHigh / a.mHigh : velocity.mHigh;
-    bendBand = velocity.mBand;
-    bendLow = logLow ? velocity.mLow / a.mLow : velocity.mLow;
+    base[0] = a.logG;
+    step[0] = b.logG - a.logG;
+    bend[0] = velocity.logG;
+    base[1] = a.logK;
+    step[1] = b.logK - a.logK;
+    bend[1] = velocity.logK;
+    base[3] = a.mBand;
+    step[3] = b.mBand - a.mBand;
+    bend[3] = velocity.mBand;
+    // A weight moves in dB when both ends share a sign (d(log |m|)/dt = m'/m there), else
+    // linearly; one that does not move (a peaking section's 1) stays exactly itself.
+    auto weight = [](double wa, double wb, double v, double& x0, double& dx, double& bx,
+                     double& sign) -> bool
+    {
+        x0 = wa;
+        dx = 0.0;
+        bx = 0.0;
+        if (wa == wb && v == 0.0)
+            return false;
+        if (sameSign(wa, wb))
+        {
+            sign = wa > 0.0 ? 1.0 : -1.0;
+            x0 = std::log(std::abs(wa));
+            dx = std::log(std::abs(wb)) - x0;
+            bx = v / wa;
+            return true;
+        }
+        dx = wb - wa;
+        bx = v;
+        return false;
+    };
+    dbHigh = weight(a.mHigh, b.mHigh, velocity.mHigh, base[2], step[2], bend[2], signHigh);
+    dbLow = weight(a.mLow, b.mLow, velocity.mLow, base[4], step[4], bend[4], signLow);
 }
 
 namespace
 {
-/// Where a path is at time fraction t, before the exponentials: for each quantity its value
-/// in the path's coordinates and its rate d/dt (x(t) = x0 + step s(t) + bend B(t), so
-/// x'(t) = step s'(t) + bend B'(t)). The high and low weights either move in dB (db*: the
-/// weight is sign e^arg) or linearly (lin*, also a weight that does not move).
+/// Where a path is at time fraction t, before the exponentials: each coordinate x and its
+/// rate d/dt (x(t) = base + step s(t) + bend B(t), so x'(t) = step s'(t) + bend B'(t)).
 struct PathPoint
 {
-    double argG, rateG, argK, rateK;
-    double argH, rateH, linH, linHs;
-    double argL, rateL, linL, linLs;
-    double band, bandS;
-    bool dbH, dbL;
+    double x[5], rate[5];
 };
 
-PathPoint pathPoint(const GlidePath& p, double t) noexcept
+inline PathPoint pathPoint(const GlidePath& p, double t) noexcept
 {
     const double tc = std::clamp(t, 0.0, 1.0);
     const double s = transitionCurve(tc), ds = transitionSlope(tc);
     const double b = bendCurve(tc), db = bendSlope(tc);
-    PathPoint q{};
-    auto move = [&](double x0, double step, double bend, double& x, double& rate)
+    PathPoint q;
+    for (int i = 0; i < 5; ++i)
     {
-        x = x0 + s * step + b * bend;
-        rate = ds * step + db * bend;
-    };
-    move(p.from.logG, p.to.logG - p.from.logG, p.bendG, q.argG, q.rateG);
-    move(p.from.logK, p.to.logK - p.from.logK, p.bendK, q.argK, q.rateK);
-    auto weight = [&](double from, double to, bool log, double l0, double step, double bend,
-                      bool& db, double& arg, double& rate, double& lin, double& linS)
-    {
-        db = false;
-        arg = rate = 0.0;
-        lin = from;
-        linS = 0.0;
-        if (from == to && bend == 0.0)
-            return; // a weight that does not move (a peaking section's 1) costs nothing
-        if (log)
-        {
-            db = true;
-            move(l0, step, bend, arg, rate);
-        }
-        else
-            move(from, to - from, bend, lin, linS);
-    };
-    weight(p.from.mHigh, p.to.mHigh, p.logHigh, p.logHigh0, p.logHighStep, p.bendHigh, q.dbH,
-           q.argH, q.rateH, q.linH, q.linHs);
-    weight(p.from.mLow, p.to.mLow, p.logLow, p.logLow0, p.logLowStep, p.bendLow, q.dbL, q.argL,
-           q.rateL, q.linL, q.linLs);
-    move(p.from.mBand, p.to.mBand - p.from.mBand, p.bendBand, q.band, q.bandS);
+        q.x[i] = p.base[i] + s * p.step[i] + b * p.bend[i];
+        q.rate[i] = ds * p.step[i] + db * p.bend[i];
+    }
     // At the ends exactly the end points (from + (to - from) need not round to to).
     if (t >= 1.0)
-        q.band = p.to.mBand;
-    else if (t <= 0.0)
-        q.band = p.from.mBand;
+        q.x[3] = p.to.mBand;
     return q;
 }
 
-/// The folding of everything as the kernels fold it, given g, k, a1, the weights and their
+/// The folding of everything as the kernels fold them, given g, k, a1, the weights and their
 /// derivatives along t.
 void fold(double g, double gs, double k, double ks, double a1, double a1s, double mh, double mhs,
           double mb, double mbs, double ml, double mls, double value[6], double slope[6]) noexcept
@@ -192,11 +174,11 @@ SvfNatural GlidePath::at(double t) const noexcept
         return to;
     const PathPoint q = pathPoint(*this, t);
     SvfNatural n;
-    n.logG = q.argG;
-    n.logK = q.argK;
-    n.mHigh = q.dbH ? signHigh * std::exp(q.argH) : q.linH;
-    n.mBand = q.band;
-    n.mLow = q.dbL ? signLow * std::exp(q.argL) : q.linL;
+    n.logG = q.x[0];
+    n.logK = q.x[1];
+    n.mHigh = dbHigh ? signHigh * std::exp(q.x[2]) : q.x[2];
+    n.mBand = q.x[3];
+    n.mLow = dbLow ? signLow * std::exp(q.x[4]) : q.x[4];
     return n;
 }
 
@@ -204,11 +186,11 @@ SvfNatural GlidePath::velocityAt(double t) const noexcept
 {
     const PathPoint q = pathPoint(*this, t);
     SvfNatural v;
-    v.logG = q.rateG;
-    v.logK = q.rateK;
-    v.mHigh = q.dbH ? signHigh * std::exp(q.argH) * q.rateH : q.linHs;
-    v.mBand = q.bandS;
-    v.mLow = q.dbL ? signLow * std::exp(q.argL) * q.rateL : q.linLs;
+    v.logG = q.rate[0];
+    v.logK = q.rate[1];
+    v.mHigh = dbHigh ? signHigh * std::exp(q.x[2]) * q.rate[2] : q.rate[2];
+    v.mBand = q.rate[3];
+    v.mLow = dbLow ? signLow * std::exp(q.x[4]) * q.rate[4] : q.rate[4];
     return v;
 }
 
@@ -245,71 +227,97 @@ __attribute__((target("avx,fma"))) __m256d exp4(__m256d x) noexcept
     return _mm256_mul_pd(p, scale);
 }
 
-/// A weight as fold takes it, four lanes at once: linear (or still) lanes as pathPoint gave
-/// them, lanes marked in `db` (sign bit set) sign e^arg with slope sign e^arg rate.
-__attribute__((target("avx,fma"))) inline void
-weight4(bool any, const double* arg, const double* rate, const double* lin, const double* linS,
-        const double* sign, const double* db, __m256d& w, __m256d& ws) noexcept
+/// Four lanes of c0 + x (c1 + x (c2 + ...)) for coefficients cs[0], cs[1], ...
+template <std::size_t N>
+__attribute__((target("avx,fma"))) inline __m256d horner4(__m256d x, const double (&cs)[N]) noexcept
 {
-    w = _mm256_load_pd(lin);
-    ws = _mm256_load_pd(linS);
+    __m256d p = _mm256_set1_pd(cs[N - 1]);
+    for (std::size_t i = N - 1; i-- > 0;)
+        p = _mm256_fmadd_pd(p, x, _mm256_set1_pd(cs[i]));
+    return p;
+}
+
+/// A weight as fold takes it, four lanes at once (the high weight or the low): linear (or
+/// still) lanes as they are; lanes that move in dB sign e^x, with slope sign e^x rate.
+__attribute__((target("avx,fma"))) inline void weight4(const GlidePath* const* p, int count,
+                                                       bool high, __m256d x, __m256d rate,
+                                                       __m256d& w, __m256d& ws) noexcept
+{
+    w = x;
+    ws = rate;
+    bool db[4];
+    double sign[4];
+    bool any = false;
+    for (int i = 0; i < 4; ++i)
+    {
+        db[i] = i < count && (high ? p[i]->dbHigh : p[i]->dbLow);
+        sign[i] = high ? p[i]->signHigh : p[i]->signLow;
+        any = any || db[i];
+    }
     if (!any)
         return;
-    const __m256d wDb = _mm256_mul_pd(_mm256_load_pd(sign), exp4(_mm256_load_pd(arg)));
-    const __m256d mask = _mm256_load_pd(db);
+    const __m256d mask = _mm256_castsi256_pd(
+        _mm256_set_epi64x(db[3] ? -1 : 0, db[2] ? -1 : 0, db[1] ? -1 : 0, db[0] ? -1 : 0));
+    const __m256d wDb = _mm256_mul_pd(_mm256_set_pd(sign[3], sign[2], sign[1], sign[0]), exp4(x));
     w = _mm256_blendv_pd(w, wDb, mask);
-    ws = _mm256_blendv_pd(ws, _mm256_mul_pd(wDb, _mm256_load_pd(rate)), mask);
+    ws = _mm256_blendv_pd(ws, _mm256_mul_pd(wDb, rate), mask);
 }
 
 __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths, const double* t,
                                                   int count, double (*value)[6],
                                                   double (*slope)[6]) noexcept
 {
-    // Each lane's point before the exponentials (pathPoint, scalar), then the exponentials,
-    // the division and the fold of all four lanes in one vector each.
-    alignas(32) double argG[4], rateG[4], argK[4], rateK[4], argH[4], rateH[4], linH[4], linHs[4],
-        signH[4], dbH[4], argL[4], rateL[4], linL[4], linLs[4], signL[4], dbL[4], band[4], bandS[4];
-    bool anyHigh = false, anyLow = false;
+    const GlidePath* p[4];
+    alignas(32) double tv[4];
     for (int i = 0; i < 4; ++i)
     {
-        const GlidePath& p = *paths[i < count ? i : 0];
-        const PathPoint q = pathPoint(p, t[i < count ? i : 0]);
-        argG[i] = q.argG;
-        rateG[i] = q.rateG;
-        argK[i] = q.argK;
-        rateK[i] = q.rateK;
-        argH[i] = q.argH;
-        rateH[i] = q.rateH;
-        linH[i] = q.linH;
-        linHs[i] = q.linHs;
-        signH[i] = p.signHigh;
-        dbH[i] = q.dbH ? -1.0 : 0.0; // sign bit set (blendv) where the weight moves in dB
-        argL[i] = q.argL;
-        rateL[i] = q.rateL;
-        linL[i] = q.linL;
-        linLs[i] = q.linLs;
-        signL[i] = p.signLow;
-        dbL[i] = q.dbL ? -1.0 : 0.0;
-        band[i] = q.band;
-        bandS[i] = q.bandS;
-        anyHigh = anyHigh || q.dbH;
-        anyLow = anyLow || q.dbL;
+        p[i] = paths[i < count ? i : 0];
+        tv[i] = t[i < count ? i : 0];
+    }
+    // s(t), s'(t), B(t), B'(t) of the four lanes (t clamped to [0, 1]; Transition.h):
+    // s = t^4 (35 - 84 t + 70 t^2 - 20 t^3), s' = 140 t^3 (1 - t)^3, B = t u^4 and
+    // B' = u^3 (1 - 5 t) with u = 1 - t.
+    const __m256d zero = _mm256_setzero_pd(), one = _mm256_set1_pd(1.0);
+    const __m256d traw = _mm256_load_pd(tv);
+    const __m256d x = _mm256_min_pd(_mm256_max_pd(traw, zero), one);
+    const __m256d u = _mm256_sub_pd(one, x);
+    const __m256d x2 = _mm256_mul_pd(x, x), u2 = _mm256_mul_pd(u, u);
+    const __m256d xu = _mm256_mul_pd(x, u);
+    const __m256d s = _mm256_mul_pd(_mm256_mul_pd(x2, x2), horner4(x, {35.0, -84.0, 70.0, -20.0}));
+    const __m256d ds =
+        _mm256_mul_pd(_mm256_set1_pd(140.0), _mm256_mul_pd(_mm256_mul_pd(xu, xu), xu));
+    const __m256d bc = _mm256_mul_pd(x, _mm256_mul_pd(u2, u2));
+    const __m256d db =
+        _mm256_mul_pd(_mm256_mul_pd(u2, u), _mm256_fnmadd_pd(_mm256_set1_pd(5.0), x, one));
+    // Each coordinate and its rate: base + step s + bend B and step s' + bend B'.
+    __m256d xs[5], rs[5];
+    for (int c = 0; c < 5; ++c)
+    {
+        const __m256d b0 =
+            _mm256_set_pd(p[3]->base[c], p[2]->base[c], p[1]->base[c], p[0]->base[c]);
+        const __m256d st =
+            _mm256_set_pd(p[3]->step[c], p[2]->step[c], p[1]->step[c], p[0]->step[c]);
+        const __m256d be =
+            _mm256_set_pd(p[3]->bend[c], p[2]->bend[c], p[1]->bend[c], p[0]->bend[c]);
+        xs[c] = _mm256_fmadd_pd(bc, be, _mm256_fmadd_pd(s, st, b0));
+        rs[c] = _mm256_fmadd_pd(db, be, _mm256_mul_pd(ds, st));
     }
     __m256d mh, mhs, ml, mls;
-    weight4(anyHigh, argH, rateH, linH, linHs, signH, dbH, mh, mhs);
-    weight4(anyLow, argL, rateL, linL, linLs, signL, dbL, ml, mls);
-    const __m256d g = exp4(_mm256_load_pd(argG));
-    const __m256d k = exp4(_mm256_load_pd(argK));
-    const __m256d gs = _mm256_mul_pd(g, _mm256_load_pd(rateG)),
-                  ks = _mm256_mul_pd(k, _mm256_load_pd(rateK));
-    const __m256d one = _mm256_set1_pd(1.0);
+    weight4(p, count, true, xs[2], rs[2], mh, mhs);
+    weight4(p, count, false, xs[4], rs[4], ml, mls);
+    const __m256d g = exp4(xs[0]);
+    const __m256d k = exp4(xs[1]);
+    const __m256d gs = _mm256_mul_pd(g, rs[0]), ks = _mm256_mul_pd(k, rs[1]);
     const __m256d a1 = _mm256_div_pd(one, _mm256_fmadd_pd(g, _mm256_add_pd(g, k), one));
     // a1' = -a1^2 (2 g g' + g' k + g k')
     const __m256d inner =
         _mm256_fmadd_pd(g, ks, _mm256_mul_pd(gs, _mm256_add_pd(_mm256_add_pd(g, g), k)));
-    const __m256d a1s =
-        _mm256_mul_pd(_mm256_sub_pd(_mm256_setzero_pd(), _mm256_mul_pd(a1, a1)), inner);
-    const __m256d mb = _mm256_load_pd(band), mbs = _mm256_load_pd(bandS);
+    const __m256d a1s = _mm256_mul_pd(_mm256_sub_pd(zero, _mm256_mul_pd(a1, a1)), inner);
+    // At t >= 1 exactly the end value of the band weight.
+    const __m256d bTo =
+        _mm256_set_pd(p[3]->to.mBand, p[2]->to.mBand, p[1]->to.mBand, p[0]->to.mBand);
+    const __m256d mb = _mm256_blendv_pd(xs[3], bTo, _mm256_cmp_pd(traw, one, _CMP_GE_OQ));
+    const __m256d mbs = rs[3];
     const __m256d v[6] = {a1, _mm256_mul_pd(g, a1),        g,
                           mh, _mm256_fnmadd_pd(mh, k, mb), _mm256_sub_pd(ml, mh)};
     const __m256d d[6] = {
@@ -342,22 +350,22 @@ void GlidePath::foldedAt(double t, double value[6], double slope[6]) const noexc
     // g, k and a1 = 1 / (1 + g (g + k)) with their derivatives along t (chain rule), then
     // the weights and the fold as the kernels fold them.
     const PathPoint q = pathPoint(*this, t);
-    const double g = std::exp(q.argG), gs = g * q.rateG;
-    const double k = std::exp(q.argK), ks = k * q.rateK;
+    const double g = std::exp(q.x[0]), gs = g * q.rate[0];
+    const double k = std::exp(q.x[1]), ks = k * q.rate[1];
     const double a1 = 1.0 / (1.0 + g * (g + k));
     const double a1s = -a1 * a1 * (2.0 * g * gs + gs * k + g * ks);
-    double mh = q.linH, mhs = q.linHs, ml = q.linL, mls = q.linLs;
-    if (q.dbH)
+    double mh = q.x[2], mhs = q.rate[2], ml = q.x[4], mls = q.rate[4];
+    if (dbHigh)
     {
-        mh = signHigh * std::exp(q.argH);
-        mhs = mh * q.rateH;
+        mh = signHigh * std::exp(q.x[2]);
+        mhs = mh * q.rate[2];
     }
-    if (q.dbL)
+    if (dbLow)
     {
-        ml = signLow * std::exp(q.argL);
-        mls = ml * q.rateL;
+        ml = signLow * std::exp(q.x[4]);
+        mls = ml * q.rate[4];
     }
-    fold(g, gs, k, ks, a1, a1s, mh, mhs, q.band, q.bandS, ml, mls, value, slope);
+    fold(g, gs, k, ks, a1, a1s, mh, mhs, q.x[3], q.rate[3], ml, mls, value, slope);
 }
 
 void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, double (*value)[6],

@@ -144,12 +144,13 @@ SvfCoeffs fromNatural(const SvfNatural& n) noexcept;
 struct GlidePath
 {
     SvfNatural from, to;
-    double logHigh0 = 0.0, logHighStep = 0.0, signHigh = 1.0; // |mHigh| in log when logHigh
-    double logLow0 = 0.0, logLowStep = 0.0, signLow = 1.0;
-    bool logHigh = false, logLow = false;
-    /// The start velocity d/dt in the path's coordinates (log g, log k, high weight in log
-    /// magnitude when logHigh else linear, band, low as high).
-    double bendG = 0.0, bendK = 0.0, bendHigh = 0.0, bendBand = 0.0, bendLow = 0.0;
+    double signHigh = 1.0, signLow = 1.0; // the weights' shared sign when they move in dB
+    /// The path's coordinates: 0 log g, 1 log k, 2 the high weight (log |mHigh| when it
+    /// moves in dB, else mHigh), 3 the band weight, 4 the low weight (as the high). The
+    /// coordinate at t is base + step s(t) + bend B(t); bend is the start velocity d/dt.
+    double base[5] = {}, step[5] = {}, bend[5] = {};
+    /// Whether the high (low) weight moves in dB: both ends share a sign and it moves.
+    bool dbHigh = false, dbLow = false;
 
     GlidePath() = default;
     /// A glide from rest.
