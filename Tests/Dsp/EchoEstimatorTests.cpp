@@ -5,6 +5,7 @@
 #include "Stages/EchoCanceller.h"
 
 #include "SpeechLikeSource.h"
+#include "SynthesizedSpeech.h"
 
 #include <catch2/catch.hpp>
 
@@ -18,6 +19,7 @@ using kerf::test::delayedBySinc;
 using kerf::test::energy;
 using kerf::test::Rng;
 using kerf::test::speechLike;
+using kerf::test::speechStretch;
 
 namespace
 {
@@ -34,13 +36,34 @@ struct Scene
     std::vector<float> recorded;       // echoic + white noise
 };
 
-/// clean speech-like source, echoes by windowed-sinc fractional delay, white noise at snrDb
-/// relative to the echoic signal's power.
-Scene makeScene(double fs, double seconds, std::uint64_t seed,
+/// The two materials the bars are measured on (issue 4: "speech from Debian's espeak-ng or a
+/// deterministic speech-like source"): 10 s of espeak-ng speech (SynthesizedSpeech.h; the
+/// stretch chosen by the seed), or the speech-like source (SpeechLikeSource.h).
+enum class Material
+{
+    espeak,
+    speechLike
+};
+
+std::vector<double> cleanSpeech(Material m, double fs, double seconds, std::uint64_t seed)
+{
+    if (m == Material::espeak)
+        return speechStretch(fs, seconds, static_cast<int>(seed % 1000));
+    return speechLike(fs, seconds, seed);
+}
+
+const char* materialName(Material m)
+{
+    return m == Material::espeak ? "espeak-ng" : "speech-like";
+}
+
+/// clean speech, echoes by windowed-sinc fractional delay, white noise at snrDb relative to
+/// the echoic signal's power.
+Scene makeScene(Material material, double fs, double seconds, std::uint64_t seed,
                 const std::vector<TrueReflection>& refl, double snrDb)
 {
     Scene s;
-    s.clean = speechLike(fs, seconds, seed);
+    s.clean = cleanSpeech(material, fs, seconds, seed);
     s.echoic = s.clean;
     for (const auto& r : refl)
     {
@@ -93,11 +116,11 @@ EchoEstimatorOptions defaultOptions()
 
 } // namespace
 
-// Not yet met for delays below about 20 ms (see the issue note of 2026-12-02): hidden from
-// the default run with Catch2's "[.]" until the estimator meets it; run it by name or with
-// the tag [estimator-bars]. The bar itself is unchanged.
-TEST_CASE("one reflection: delay within 1 sample, gain within 0.05, ERLE >= 20 dB",
-          "[.][echo][estimator-bars]")
+namespace
+{
+
+/// One reflection, every bar case of issue 4 on one material.
+void checkOneReflection(Material material)
 {
     // Bars: issue 4 (one reflection, gains {-0.7,-0.3,0.3,0.5,0.8}, delays 2-80 ms, 44.1 and
     // 48 kHz, white noise at 30 dB SNR). ERLE: ITU-T G.168.
@@ -111,15 +134,17 @@ TEST_CASE("one reflection: delay within 1 sample, gain within 0.05, ERLE >= 20 d
             for (double g : gains)
             {
                 ++seed;
-                const Scene s = makeScene(fs, 10.0, seed, {{dMs, g}}, 30.0);
+                const Scene s = makeScene(material, fs, 10.0, seed, {{dMs, g}}, 30.0);
                 const EchoEstimate est =
                     estimateEchoes(s.recorded.data(), s.recorded.size(), fs, defaultOptions());
-                INFO("seed " << seed << " fs " << fs << " delay " << dMs << " ms gain " << g);
+                INFO(materialName(material)
+                     << " seed " << seed << " fs " << fs << " delay " << dMs << " ms gain " << g);
                 CHECK(!est.reflections.empty());
                 if (est.reflections.empty())
                 {
-                    std::printf("one: seed %llu fs %.0f D %.1f ms g %+.2f -> nothing found\n",
-                                static_cast<unsigned long long>(seed), fs, dMs, g);
+                    std::printf("one (%s): seed %llu fs %.0f D %.1f ms g %+.2f -> nothing found\n",
+                                materialName(material), static_cast<unsigned long long>(seed), fs,
+                                dMs, g);
                     worstErle = -1e9;
                     continue;
                 }
@@ -128,11 +153,11 @@ TEST_CASE("one reflection: delay within 1 sample, gain within 0.05, ERLE >= 20 d
                 const double dErr = std::abs(r.delaySamples - trueD);
                 const double gErr = std::abs(r.gain - g);
                 const double erle = erleDb(s, echoSettingsFromEstimate(est, EchoMethod::exact), fs);
-                std::printf("one: seed %llu fs %.0f D %.1f ms (%.2f smp) g %+.2f -> D %.3f smp g "
-                            "%+.4f conf %.3f n %zu | dErr %.3f gErr %.4f ERLE %.1f dB\n",
-                            static_cast<unsigned long long>(seed), fs, dMs, trueD, g,
-                            r.delaySamples, r.gain, r.confidence, est.reflections.size(), dErr,
-                            gErr, erle);
+                std::printf("one (%s): seed %llu fs %.0f D %.1f ms (%.2f smp) g %+.2f -> D %.3f "
+                            "smp g %+.4f conf %.3f n %zu | dErr %.3f gErr %.4f ERLE %.1f dB\n",
+                            materialName(material), static_cast<unsigned long long>(seed), fs, dMs,
+                            trueD, g, r.delaySamples, r.gain, r.confidence, est.reflections.size(),
+                            dErr, gErr, erle);
                 CHECK(dErr <= 1.0);  // issue 4: delay error <= 1 sample
                 CHECK(gErr <= 0.05); // issue 4: gain error <= 0.05
                 CHECK(erle >= 20.0); // issue 4 / ITU-T G.168: ERLE >= 20 dB
@@ -140,38 +165,47 @@ TEST_CASE("one reflection: delay within 1 sample, gain within 0.05, ERLE >= 20 d
                 worstGainErr = std::max(worstGainErr, gErr);
                 worstErle = std::min(worstErle, erle);
             }
-    WARN("one reflection, 50 cases: worst delay error "
-         << worstDelayErr << " samples, worst gain error " << worstGainErr << ", worst ERLE "
-         << worstErle << " dB");
+    WARN(materialName(material) << ", one reflection, 50 cases: worst delay error " << worstDelayErr
+                                << " samples, worst gain error " << worstGainErr << ", worst ERLE "
+                                << worstErle << " dB");
 }
 
-// Not yet met (see above): hidden from the default run, bar unchanged.
-TEST_CASE("three reflections: all found within 1 sample, ERLE >= 12 dB",
-          "[.][echo][estimator-bars]")
+/// Three reflections in each of three invented rooms, on one material.
+void checkThreeReflections(Material material)
 {
     // Bars: issue 4 (three reflections: all found within the one-reflection delay bar;
-    // ERLE >= 12 dB, ITU-T G.168). Invented rooms, 30 dB SNR white noise.
+    // ERLE >= 12 dB, ITU-T G.168). Invented rooms, 30 dB SNR white noise. ERLE is measured
+    // through the exact inverse, so each room must have one: the sum of |gain| stays below 1
+    // (then every root of 1 + sum a_k z^-D_k lies inside the unit circle, by the triangle
+    // inequality), checked below with the stage's own Schur-Cohn test. (Rooms with
+    // 0.6/-0.4/0.3 and the like were used before: their exact inverses are unstable -
+    // largest root radius 1.0001-1.0005, NumPy roots - so no estimate could meet the bar.)
     struct Room
     {
         double fs;
         std::vector<TrueReflection> refl;
     };
     const Room rooms[] = {
-        {48000.0, {{4.3, 0.6}, {11.9, -0.4}, {27.5, 0.3}}},
-        {44100.0, {{6.1, -0.5}, {17.3, 0.45}, {52.8, -0.3}}},
-        {48000.0, {{2.9, 0.5}, {23.7, 0.35}, {71.2, -0.3}}},
+        {48000.0, {{4.3, 0.45}, {11.9, -0.3}, {27.5, 0.2}}},
+        {44100.0, {{6.1, -0.4}, {17.3, 0.3}, {52.8, -0.25}}},
+        {48000.0, {{2.9, 0.4}, {23.7, 0.3}, {71.2, -0.25}}},
     };
     std::uint64_t seed = 3000;
     double worstD = 0.0, worstErle = 1e9;
     for (const auto& room : rooms)
     {
         ++seed;
-        const Scene s = makeScene(room.fs, 10.0, seed, room.refl, 30.0);
+        EchoCancelSettings truth;
+        for (const auto& t : room.refl)
+            truth.reflections[static_cast<std::size_t>(truth.numReflections++)] = {t.delayMs,
+                                                                                   t.gain};
+        REQUIRE(checkEchoStability(truth, room.fs).stable);
+        const Scene s = makeScene(material, room.fs, 10.0, seed, room.refl, 30.0);
         const EchoEstimate est =
             estimateEchoes(s.recorded.data(), s.recorded.size(), room.fs, defaultOptions());
-        INFO("seed " << seed << " fs " << room.fs);
-        std::printf("three: seed %llu fs %.0f found %zu:", static_cast<unsigned long long>(seed),
-                    room.fs, est.reflections.size());
+        INFO(materialName(material) << " seed " << seed << " fs " << room.fs);
+        std::printf("three (%s): seed %llu fs %.0f found %zu:", materialName(material),
+                    static_cast<unsigned long long>(seed), room.fs, est.reflections.size());
         for (const auto& r : est.reflections)
             std::printf(" [%.3f smp %+.3f c%.2f]", r.delaySamples, r.gain, r.confidence);
         std::printf("\n");
@@ -186,33 +220,76 @@ TEST_CASE("three reflections: all found within 1 sample, ERLE >= 12 dB",
             worstD = std::max(worstD, best);
         }
         const double erle = erleDb(s, echoSettingsFromEstimate(est, EchoMethod::exact), room.fs);
-        std::printf("three: seed %llu ERLE %.1f dB\n", static_cast<unsigned long long>(seed), erle);
+        std::printf("three (%s): seed %llu ERLE %.1f dB\n", materialName(material),
+                    static_cast<unsigned long long>(seed), erle);
         CHECK(erle >= 12.0); // issue 4 / ITU-T G.168
         worstErle = std::min(worstErle, erle);
     }
-    WARN("three reflections, 3 rooms: worst delay error " << worstD << " samples, worst ERLE "
-                                                          << worstErle << " dB");
+    WARN(materialName(material) << ", three reflections, 3 rooms: worst delay error " << worstD
+                                << " samples, worst ERLE " << worstErle << " dB");
 }
 
-TEST_CASE("no echo: nothing reported above the confidence threshold", "[echo]")
+/// Recordings without an echo, on one material.
+void checkNoEcho(Material material)
 {
-    // Bar: issue 4 (a recording without echo reports none). Speech-like source and noise only.
+    // Bar: issue 4 (a recording without echo reports none). Speech and noise only.
     int reported = 0;
-    double worstConf = 0.0;
     for (double fs : {44100.0, 48000.0})
         for (std::uint64_t seed = 5001; seed <= 5004; ++seed)
         {
-            const Scene s = makeScene(fs, 10.0, seed, {}, 30.0);
+            const Scene s = makeScene(material, fs, 10.0, seed, {}, 30.0);
             const EchoEstimate est =
                 estimateEchoes(s.recorded.data(), s.recorded.size(), fs, defaultOptions());
-            std::printf("none: seed %llu fs %.0f reported %zu, best rejected confidence %.3f\n",
-                        static_cast<unsigned long long>(seed), fs, est.reflections.size(),
-                        est.strongestRejectedConfidence);
-            INFO("seed " << seed << " fs " << fs);
+            std::printf("none (%s): seed %llu fs %.0f reported %zu, best rejected confidence "
+                        "%.3f\n",
+                        materialName(material), static_cast<unsigned long long>(seed), fs,
+                        est.reflections.size(), est.strongestRejectedConfidence);
+            INFO(materialName(material) << " seed " << seed << " fs " << fs);
             CHECK(est.reflections.empty());
             reported += static_cast<int>(est.reflections.size());
-            for (const auto& r : est.reflections)
-                worstConf = std::max(worstConf, r.confidence);
         }
-    WARN("no echo, 8 recordings: " << reported << " reflections reported");
+    WARN(materialName(material) << ", no echo, 8 recordings: " << reported
+                                << " reflections reported");
+}
+
+} // namespace
+
+// Not yet met on either material (see the issue notes): hidden from the default run with
+// Catch2's "[.]" until the estimator meets them; run them by name or with the tag
+// [estimator-bars]. The bars themselves are unchanged.
+TEST_CASE("one reflection in espeak-ng speech: delay within 1 sample, gain within 0.05, "
+          "ERLE >= 20 dB",
+          "[.][echo][estimator-bars]")
+{
+    checkOneReflection(Material::espeak);
+}
+
+TEST_CASE("one reflection in the speech-like source: delay within 1 sample, gain within 0.05, "
+          "ERLE >= 20 dB",
+          "[.][echo][estimator-bars]")
+{
+    checkOneReflection(Material::speechLike);
+}
+
+TEST_CASE("three reflections in espeak-ng speech: all found within 1 sample, ERLE >= 12 dB",
+          "[echo]")
+{
+    checkThreeReflections(Material::espeak);
+}
+
+TEST_CASE("three reflections in the speech-like source: all found within 1 sample, ERLE >= 12 dB",
+          "[.][echo][estimator-bars]")
+{
+    checkThreeReflections(Material::speechLike);
+}
+
+TEST_CASE("no echo in espeak-ng speech: nothing reported above the confidence threshold", "[echo]")
+{
+    checkNoEcho(Material::espeak);
+}
+
+TEST_CASE("no echo in the speech-like source: nothing reported above the confidence threshold",
+          "[echo]")
+{
+    checkNoEcho(Material::speechLike);
 }
