@@ -11,6 +11,7 @@
 //     removed), the exact inverse with Lagrange fractional delays runs on it, and
 //     Levenberg-Marquardt on gain and sub-sample delay minimises the output energy of the
 //     active blocks; then a robust pass takes the median of per-frame Gauss-Newton steps.
+//     A new candidate is screened by one robust step before the full refinement (see .cpp).
 //  3. Confidence: the share of frames whose own gain estimate agrees with the final one.
 //     A candidate joins the model provisionally when that share reaches 0.8 x the threshold,
 //     its gain reaches minGain, and its refined delay stays inside the searched range and
@@ -67,9 +68,13 @@ struct EchoEstimate
 EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateHz,
                             const EchoEstimatorOptions& options);
 
-/// Frame-averaged power cepstrum: Hann frames of frameSize (a power of two) with hop
+/// Analysis frame of the estimator's cepstrum for delays up to maxDelayMs: the smallest even
+/// size with no prime factor above 5 that is at least 4x the delay (and 2048 - 131072).
+int echoEstimatorFrameSize(double maxDelayMs, double sampleRateHz);
+
+/// Frame-averaged power cepstrum: Hann frames of frameSize (even) with hop
 /// frameSize/2, the quietest dropQuietFraction of frames left out (and, for long
-/// recordings, all but the loudest 400), mean of ln(|X|^2) over the
+/// recordings, all but the loudest 240), mean of ln(|X|^2) over the
 /// remaining frames, inverse FFT. Returns c[0..frameSize/2]; framesUsed if given.
 std::vector<double> averagedPowerCepstrum(const float* mono, std::size_t n, int frameSize,
                                           double dropQuietFraction, int* framesUsed = nullptr);

@@ -94,8 +94,9 @@ double numpySeconds(int frameSize)
 void BM_EchoEstimate10MinVsNumpy(benchmark::State& state)
 {
     const auto& s = signal();
-    kerf::dsp::EchoEstimatorOptions o;      // defaults: 1.5-100 ms, up to 4 reflections
-    const double ref = numpySeconds(32768); // the estimator's frame size for 100 ms at 48 kHz
+    kerf::dsp::EchoEstimatorOptions o; // defaults: 1.5-100 ms, up to 4 reflections
+    // The estimator's own frame size for 100 ms at 48 kHz.
+    const double ref = numpySeconds(kerf::dsp::echoEstimatorFrameSize(o.maxDelayMs, kFs));
     double total = 0.0;
     int runs = 0;
     for (auto _ : state)
