@@ -411,6 +411,7 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         // from the path's by the interpolation error only); at a knot rampKnot and slope
         // already hold the path's; a still section starts at rest.
         SvfNatural from, velocity;
+        double span = 1.0;
         if (g.on)
         {
             const double t = g.tAt(clock);
@@ -420,6 +421,9 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
             const SvfNatural v = g.path.velocityAt(t);
             velocity = {v.logG * scale, v.logK * scale, v.mHigh * scale, v.mBand * scale,
                         v.mLow * scale};
+            // A longer glide than the old one spends the velocity over the old one's length
+            // (coasting over the whole of a much longer glide would carry the section far).
+            span = std::min(1.0, static_cast<double>(g.len) / static_cast<double>(len));
             if (clock < g.knotEnd)
                 foldedNow(idx, rampKnot[static_cast<std::size_t>(idx)].v, g.slope);
         }
@@ -430,7 +434,7 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
             for (double& v : g.slope)
                 v = 0.0;
         }
-        g.path = GlidePath(from, toNatural(target), velocity);
+        g.path = GlidePath(from, toNatural(target), velocity, span);
         g.target = target;
         g.start = clock;
         g.len = len;

@@ -82,9 +82,12 @@ GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept
 {
 }
 
-GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity) noexcept
+GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity,
+                     double span) noexcept
     : from(a), to(b)
 {
+    bendSpan = std::clamp(span, 1e-3, 1.0);
+    invBendSpan = 1.0 / bendSpan;
     base[0] = a.logG;
     step[0] = b.logG - a.logG;
     bend[0] = velocity.logG;
@@ -96,15 +99,18 @@ GlidePath::GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural&
     bend[3] = velocity.mBand;
     // A weight moves in dB when both ends share a sign (d(log |m|)/dt = m'/m there), else
     // linearly; one that does not move (a peaking section's 1) stays exactly itself.
-    auto weight = [](double wa, double wb, double v, double& x0, double& dx, double& bx,
-                     double& sign) -> bool
+    // The bend's largest excursion: bend span max B, max B = B(1/5) = 4^4 / 5^5.
+    const double reach = bendSpan * 256.0 / 3125.0;
+    auto weight = [reach](double wa, double wb, double v, double& x0, double& dx, double& bx,
+                          double& sign) -> bool
     {
         x0 = wa;
         dx = 0.0;
         bx = 0.0;
         if (wa == wb && v == 0.0)
             return false;
-        if (sameSign(wa, wb))
+        // In dB unless the bend would move it by more than 6 dB (ln 2 in log magnitude).
+        if (sameSign(wa, wb) && reach * std::abs(v / wa) <= std::log(2.0))
         {
             sign = wa > 0.0 ? 1.0 : -1.0;
             x0 = std::log(std::abs(wa));
@@ -133,7 +139,7 @@ inline PathPoint pathPoint(const GlidePath& p, double t) noexcept
 {
     const double tc = std::clamp(t, 0.0, 1.0);
     const double s = transitionCurve(tc), ds = transitionSlope(tc);
-    const double b = bendCurve(tc), db = bendSlope(tc);
+    const double b = p.bendSpan * bendCurve(tc * p.invBendSpan), db = bendSlope(tc * p.invBendSpan);
     PathPoint q;
     for (int i = 0; i < 5; ++i)
     {
@@ -274,21 +280,28 @@ __attribute__((target("avx,fma"))) void foldedAt4(const GlidePath* const* paths,
         p[i] = paths[i < count ? i : 0];
         tv[i] = t[i < count ? i : 0];
     }
-    // s(t), s'(t), B(t), B'(t) of the four lanes (t clamped to [0, 1]; Transition.h):
-    // s = t^4 (35 - 84 t + 70 t^2 - 20 t^3), s' = 140 t^3 (1 - t)^3, B = t u^4 and
-    // B' = u^3 (1 - 5 t) with u = 1 - t.
+    // s(t), s'(t) and the bend span B(t / span), B'(t / span) of the four lanes (t clamped
+    // to [0, 1]; Transition.h): s = t^4 (35 - 84 t + 70 t^2 - 20 t^3), s' = 140 t^3 (1 - t)^3,
+    // and with r = min(t / span, 1), w = 1 - r: B = r w^4, B' = w^3 (1 - 5 r).
     const __m256d zero = _mm256_setzero_pd(), one = _mm256_set1_pd(1.0);
     const __m256d traw = _mm256_load_pd(tv);
     const __m256d x = _mm256_min_pd(_mm256_max_pd(traw, zero), one);
     const __m256d u = _mm256_sub_pd(one, x);
-    const __m256d x2 = _mm256_mul_pd(x, x), u2 = _mm256_mul_pd(u, u);
+    const __m256d x2 = _mm256_mul_pd(x, x);
     const __m256d xu = _mm256_mul_pd(x, u);
     const __m256d s = _mm256_mul_pd(_mm256_mul_pd(x2, x2), horner4(x, {35.0, -84.0, 70.0, -20.0}));
     const __m256d ds =
         _mm256_mul_pd(_mm256_set1_pd(140.0), _mm256_mul_pd(_mm256_mul_pd(xu, xu), xu));
-    const __m256d bc = _mm256_mul_pd(x, _mm256_mul_pd(u2, u2));
+    const __m256d span =
+        _mm256_set_pd(p[3]->bendSpan, p[2]->bendSpan, p[1]->bendSpan, p[0]->bendSpan);
+    const __m256d invSpan =
+        _mm256_set_pd(p[3]->invBendSpan, p[2]->invBendSpan, p[1]->invBendSpan, p[0]->invBendSpan);
+    const __m256d r = _mm256_min_pd(_mm256_mul_pd(x, invSpan), one);
+    const __m256d w = _mm256_sub_pd(one, r);
+    const __m256d w2 = _mm256_mul_pd(w, w);
+    const __m256d bc = _mm256_mul_pd(span, _mm256_mul_pd(r, _mm256_mul_pd(w2, w2)));
     const __m256d db =
-        _mm256_mul_pd(_mm256_mul_pd(u2, u), _mm256_fnmadd_pd(_mm256_set1_pd(5.0), x, one));
+        _mm256_mul_pd(_mm256_mul_pd(w2, w), _mm256_fnmadd_pd(_mm256_set1_pd(5.0), r, one));
     // Each coordinate and its rate: base + step s + bend B and step s' + bend B'.
     __m256d xs[5], rs[5];
     for (int c = 0; c < 5; ++c)

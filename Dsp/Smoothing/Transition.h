@@ -151,13 +151,22 @@ struct GlidePath
     double base[5] = {}, step[5] = {}, bend[5] = {};
     /// Whether the high (low) weight moves in dB: both ends share a sign and it moves.
     bool dbHigh = false, dbLow = false;
+    /// The bend acts over the first `bendSpan` of the glide: bend bendSpan B(t / bendSpan)
+    /// (B and its first three derivatives vanish at the span's end, so the path stays C3).
+    double bendSpan = 1.0, invBendSpan = 1.0;
 
     GlidePath() = default;
     /// A glide from rest.
     GlidePath(const SvfNatural& a, const SvfNatural& b) noexcept;
     /// A glide that starts with `velocity`: d/dt at t = 0 of log g, log k and of the plain
-    /// weights mHigh, mBand, mLow (as velocityAt gives them).
-    GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity) noexcept;
+    /// weights mHigh, mBand, mLow (as velocityAt gives them), spent over the first `span`
+    /// (0 < span <= 1) of the glide. The bend's largest excursion is 0.082 span |velocity|:
+    /// a glide that takes over a shorter one gives its velocity the old glide's length
+    /// (span = old length / new length), so the excursion stays a fraction of the old move.
+    /// A weight whose excursion in dB would pass 6 dB (its magnitude near zero) moves
+    /// linearly instead.
+    GlidePath(const SvfNatural& a, const SvfNatural& b, const SvfNatural& velocity,
+              double span = 1.0) noexcept;
     /// The natural point at time fraction t (blend(from, to, s(t)) without a bend).
     SvfNatural at(double t) const noexcept;
     /// d/dt of the natural point at t: of log g, log k and the plain weights.
