@@ -7,9 +7,11 @@
 
 #include <algorithm>
 #include <array>
+#include <climits>
 #include <cmath>
 #include <cstdint>
 #include <cstring>
+#include <future>
 #include <map>
 #include <memory>
 #include <mutex>
@@ -26,10 +28,15 @@ constexpr double kPi = std::numbers::pi;
 /// Fraction of frames (cepstrum) and blocks (refinement) left out as the quietest
 /// (ECHO-NOTES.md: quietest 30 % dropped; common practice for speech).
 constexpr double kDropQuiet = 0.3;
-/// Local SNR (power ratio) a band needs to take part in the refinement: noise in the fitted
-/// signal biases the least-squares gain towards zero by about (noise/signal) a/(1 - a^2), so
-/// only bands at least 20 dB above the noise floor are used.
+/// Local SNR (power ratio) a band needs to take part in the first refinement (threshold
+/// weighting): noise in the fitted signal biases the least-squares gain towards zero by about
+/// (noise/signal) a/(1 - a^2), so only bands at least 20 dB above the noise floor are used
+/// until the noise floor has been measured without the echo and can be compensated.
 constexpr double kWeightSnr = 100.0;
+/// Length of the excerpt's start that ranks a new candidate's start delays, s.
+constexpr double kInitSeconds = 4.0;
+/// Length of the synthetic noise stretch of the noise compensation, s (Fit::noise).
+constexpr double kNoiseSeconds = 1.5;
 /// Analysis frame of the refinement pre-filter, samples, and its FIR half-length.
 constexpr int kWeightFrame = 2048;
 constexpr int kWeightHalf = 511;
@@ -55,7 +62,7 @@ constexpr int kMaxRejections = 3;
 constexpr double kScreenShare = 0.6;
 constexpr double kScreenGain = 0.7;
 /// Local SNR, dB, from which a frequency bin takes part in the ripple fit (noise flattens the
-/// log ripple there; see kWeightSnr).
+/// log ripple there).
 constexpr double kBandSnrDb = 20.0;
 
 // ---- FFTW plans: creation is not thread-safe, so it happens once per size under a mutex ----
@@ -258,11 +265,23 @@ struct Fit
     std::vector<float> in; // padded with `pad` leading zeros
     std::size_t pad = 0;
     std::size_t n = 0;
-    std::vector<double> active; // weight per kMaskBlock block (0: left out)
+    std::size_t initLength = SIZE_MAX; ///< samples the start grid of a new candidate uses
+    std::vector<double> active;        // weight per kMaskBlock block (0: left out)
     int order = 5;
     std::vector<float> z;
     std::vector<std::vector<float>> sens;
     std::size_t numSens = 0;
+    /// Noise compensation (bias-compensated least squares; e.g. T. Soderstrom, P. Stoica,
+    /// "System Identification", 1989, on noise bias in least squares): the recording's noise,
+    /// passed through the pre-filter and the inverse, adds its own energy to the fit's, and that
+    /// energy falls as the gains shrink, pulling them towards zero. `noise` is a stretch of
+    /// synthetic noise with the recording's (pre-filtered) noise spectrum; its energy and
+    /// gradient through the same model, scaled to the active length (noiseScale), are
+    /// subtracted. Null when no noise floor was measured.
+    Fit* noise = nullptr;
+    double noiseScale = 0.0;
+    /// Half-gradient of the noise stretch's energy for the last run's sensitivities.
+    std::vector<double> noiseGradient;
 
     /// z = H_inv(in) for the model; when sensitivities are wanted, also dz/da_k and dz/dD_k
     /// for the reflections listed in `which` (in that order). Returns the masked energy of z.
@@ -343,36 +362,47 @@ struct Fit
             }
             energy += part;
         }
+        if (noise)
+        {
+            energy -= noiseScale * noise->run(model, which, wantGain, wantDelay);
+            noiseGradient.assign(ns, 0.0);
+            for (std::size_t i = 0; i < ns; ++i)
+                noiseGradient[i] = noise->dot(noise->sens[i].data(), noise->z.data());
+        }
         return energy;
     }
 
-    /// Normal equations of the masked least-squares problem in the sensitivities.
+    /// Masked sum of a[t] b[t] over the active blocks (contiguous, so it vectorises).
+    double dot(const float* a, const float* b) const
+    {
+        double acc = 0.0;
+        for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
+        {
+            const double wt = active[b0 / kMaskBlock];
+            if (wt == 0.0)
+                continue;
+            const std::size_t e = std::min(n, b0 + kMaskBlock);
+            double part = 0.0;
+#pragma omp simd reduction(+ : part)
+            for (std::size_t t = pad + b0; t < pad + e; ++t)
+                part += static_cast<double>(a[t]) * b[t];
+            acc += wt * part;
+        }
+        return acc;
+    }
+
+    /// Normal equations of the masked least-squares problem in the sensitivities (with the
+    /// noise's gradient taken off when compensating).
     void normalEquations(Eigen::MatrixXd& jtj, Eigen::VectorXd& jtz) const
     {
         const std::size_t m = numSens;
         jtj = Eigen::MatrixXd::Zero(static_cast<long>(m), static_cast<long>(m));
         jtz = Eigen::VectorXd::Zero(static_cast<long>(m));
-        // Dot products over the active mask blocks (contiguous, so they vectorise).
-        const auto dot = [&](const float* a, const float* b)
-        {
-            double acc = 0.0;
-            for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
-            {
-                const double wt = active[b0 / kMaskBlock];
-                if (wt == 0.0)
-                    continue;
-                const std::size_t e = std::min(n, b0 + kMaskBlock);
-                double part = 0.0;
-#pragma omp simd reduction(+ : part)
-                for (std::size_t t = pad + b0; t < pad + e; ++t)
-                    part += static_cast<double>(a[t]) * b[t];
-                acc += wt * part;
-            }
-            return acc;
-        };
         for (std::size_t i = 0; i < m; ++i)
         {
             jtz[static_cast<long>(i)] = dot(sens[i].data(), z.data());
+            if (noise && i < noiseGradient.size())
+                jtz[static_cast<long>(i)] -= noiseScale * noiseGradient[i];
             for (std::size_t j = i; j < m; ++j)
             {
                 const double v = dot(sens[i].data(), sens[j].data());
@@ -469,6 +499,13 @@ std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD
                     dz += w * sd * zt;
                     wsum += w;
                 }
+                if (fit.noise && fit.noiseGradient.size() >= 2)
+                {
+                    // this block's share of the noise compensation (see Fit::noise)
+                    const double share = wsum / static_cast<double>(fit.noise->n);
+                    az -= share * fit.noiseGradient[0];
+                    dz -= share * fit.noiseGradient[1];
+                }
                 const double det = aa * ddd - ad * ad;
                 if (wsum == 0.0 || !(det > 1e-12 * aa * ddd))
                     continue;
@@ -497,6 +534,16 @@ std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD
 /// Gauss-Newton steps on its gain alone; returns the best (delay, gain) by output energy.
 Refl initialiseNew(Fit& fit, const std::vector<Refl>& model, Refl start, double minD, double maxD)
 {
+    // The grid only ranks delays and starts the gain: the first kInitSeconds of the excerpt do
+    // (the full refinement and the screening use all of it).
+    const std::size_t fullLength = fit.n;
+    fit.n = std::min(fit.n, fit.initLength);
+    struct Restore
+    {
+        Fit& f;
+        std::size_t n;
+        ~Restore() { f.n = n; }
+    } restore{fit, fullLength};
     Refl best = start;
     double bestE = INFINITY;
     for (int g = -2; g <= 2; ++g)
@@ -531,13 +578,72 @@ Refl initialiseNew(Fit& fit, const std::vector<Refl>& model, Refl start, double 
     return best;
 }
 
-/// Refinement pre-filter: whitens the recording where it stands at least kWeightSnr above its
-/// noise floor and removes the other bands (an LTI filter commutes with the echo model, so the
-/// echo parameters are unchanged; whitening keeps the source's own correlation at the echo lag
-/// from biasing the fit, removing noisy bands keeps noise from biasing it). The noise floor is
-/// the mean spectrum of the quietest 10 % of frames (pauses; common practice). Returns the
-/// filtered signal, aligned with x (zero-phase FIR, Hann-windowed, by FFT convolution).
-std::vector<double> weightedWhitening(const std::vector<float>& x, int lifterLags)
+/// y[i] = sum_m h[m] x[i + (L - 1)/2 - m] (a zero-phase FIR of odd length L, centred), by
+/// overlap-save with 8192-point FFTs.
+template <typename T>
+std::vector<double> convolveCentred(const T* x, std::size_t n, const std::vector<double>& h)
+{
+    constexpr int kConvFft = 8192;
+    const std::size_t Nc = kConvFft, ncb = Nc / 2 + 1, Ls = h.size();
+    const long half = static_cast<long>(Ls - 1) / 2;
+    const std::size_t step = Nc - Ls + 1;
+    const FftPlans conv = plansFor(kConvFft);
+    FftwArray<double> a(Nc), b(Nc);
+    FftwArray<fftw_complex> A(ncb), B(ncb);
+    for (std::size_t i = 0; i < Nc; ++i)
+        b.p[i] = i < Ls ? h[i] / kConvFft : 0.0;
+    fftw_execute_dft_r2c(conv.r2c, b.p, B.p);
+    std::vector<double> out(n);
+    for (std::size_t i0 = 0; i0 < n; i0 += step)
+    {
+        const long first = static_cast<long>(i0) + half - static_cast<long>(Ls) + 1;
+        for (std::size_t i = 0; i < Nc; ++i)
+        {
+            const long j = first + static_cast<long>(i);
+            a.p[i] = j >= 0 && j < static_cast<long>(n)
+                         ? static_cast<double>(x[static_cast<std::size_t>(j)])
+                         : 0.0;
+        }
+        fftw_execute_dft_r2c(conv.r2c, a.p, A.p);
+        for (std::size_t k = 0; k < ncb; ++k)
+        {
+            const double re = A.p[k][0] * B.p[k][0] - A.p[k][1] * B.p[k][1];
+            const double im = A.p[k][0] * B.p[k][1] + A.p[k][1] * B.p[k][0];
+            A.p[k][0] = re;
+            A.p[k][1] = im;
+        }
+        fftw_execute_dft_c2r(conv.c2r, A.p, a.p);
+        for (std::size_t i = 0; i < step && i0 + i < n; ++i)
+            out[i0 + i] = a.p[Ls - 1 + i];
+    }
+    return out;
+}
+
+/// Refinement pre-filter: whitening weighted by the local signal-to-noise ratio,
+/// |W|^2 = (1/P_y) SNR/(1 + SNR) with SNR = (P_y - P_n)/P_n (a Wiener weight on the whitened
+/// spectrum; common practice), from cepstrally smoothed spectra of the active frames (P_y) and
+/// of the quietest 10 % (P_n, the noise floor; common practice). An LTI filter commutes with
+/// the echo model, so the echo parameters are unchanged; whitening keeps the source's own
+/// correlation at the echo lag from biasing the fit, and the weight lets each band take part as
+/// far as it is clear of the noise (a wider band than a hard SNR threshold: a sharper delay).
+/// The noise the weight still lets through is compensated in the fit (see NoiseModel).
+/// Returns the filtered signal, aligned with x (zero-phase FIR, Hann-windowed, overlap-save),
+/// and the FIR that shapes unit white noise into the filtered noise floor (empty when no noise
+/// floor could be measured).
+struct Whitened
+{
+    std::vector<double> signal;
+    std::vector<double> noiseShaper;
+};
+
+enum class Weighting
+{
+    threshold, ///< whitened where >= kWeightSnr over the noise floor, other bands removed
+    wiener     ///< whitened with the Wiener weight SNR/(1 + SNR), noise compensated in the fit
+};
+
+Whitened weightedWhitening(const std::vector<float>& x, int lifterLags, Weighting weighting,
+                           const std::vector<double>* noiseFloor)
 {
     const int F = kWeightFrame;
     const std::size_t Fs = static_cast<std::size_t>(F), bins = Fs / 2 + 1, hop = Fs / 2;
@@ -572,6 +678,11 @@ std::vector<double> weightedWhitening(const std::vector<float>& x, int lifterLag
             acc[k] += spec.p[k][0] * spec.p[k][0] + spec.p[k][1] * spec.p[k][1];
         (active ? na : nq)++;
     }
+    if (noiseFloor && noiseFloor->size() == bins)
+    {
+        pn = *noiseFloor; // measured elsewhere (noiseFloorAfterCancelling), same units
+        nq = 1;
+    }
     // Smooth both spectra by low-quefrency liftering (cepstral smoothing; Childers et al.
     // 1977): keep quefrencies below lifterLags, well under the shortest echo searched, so that
     // the whitening follows the source's envelope but not the echo's comb ripple (whitening
@@ -598,67 +709,263 @@ std::vector<double> weightedWhitening(const std::vector<float>& x, int lifterLag
     double peak = 0.0;
     for (std::size_t k = 0; k < bins; ++k)
         peak = std::max(peak, py[k]);
-    std::vector<double> gainK(bins, 0.0);
+    std::vector<double> gainK(bins, 0.0), noiseK(bins, 0.0);
+    const bool haveNoise = nq > 0;
+    double windowEnergy = 0.0; // sum w^2: E|X_k|^2 = sigma^2 sum w^2 for white noise
+    for (double v : w)
+        windowEnergy += v * v;
     int passed = 0;
-    for (std::size_t k = 1; k + 1 < bins; ++k)
+    for (std::size_t k = 1; k + 1 < bins && weighting == Weighting::threshold; ++k)
         if (py[k] > kWeightSnr * pn[k] && py[k] > 1e-12 * peak)
         {
             gainK[k] = 1.0 / std::sqrt(py[k]);
             ++passed;
         }
-    if (passed < 8) // no band clear of the noise: plain whitening
-        for (std::size_t k = 1; k + 1 < bins; ++k)
-            gainK[k] = 1.0 / std::sqrt(py[k] + 1e-12 * peak + 1e-300);
-    // Zero-phase FIR by frequency sampling, Hann-windowed to 2 kWeightHalf + 1 taps.
-    for (std::size_t k = 0; k < bins; ++k)
+    for (std::size_t k = 1; k + 1 < bins && weighting == Weighting::threshold && passed < 8; ++k)
+        gainK[k] = 1.0 / std::sqrt(py[k] + 1e-12 * peak + 1e-300); // no band clear: plain
+    for (std::size_t k = 1; k + 1 < bins && weighting == Weighting::wiener; ++k)
     {
-        spec.p[k][0] = gainK[k];
-        spec.p[k][1] = 0.0;
+        const double y = py[k] + 1e-12 * peak + 1e-300;
+        if (!haveNoise)
+        {
+            gainK[k] = 1.0 / std::sqrt(y); // no noise floor to measure: plain whitening
+            continue;
+        }
+        const double snr = std::max(py[k] - pn[k], 0.0) / std::max(pn[k], 1e-300);
+        const double g2 = snr / (1.0 + snr) / y;
+        gainK[k] = std::sqrt(g2);
+        noiseK[k] = std::sqrt(g2 * pn[k] / windowEnergy); // |W|^2 S_n, per-sample units
     }
-    fftw_execute_dft_c2r(plans.c2r, spec.p, frame.p);
+    // Zero-phase FIRs by frequency sampling, Hann-windowed to 2 kWeightHalf + 1 taps.
     const int L = 2 * kWeightHalf + 1;
-    std::vector<double> h(static_cast<std::size_t>(L));
-    for (int m = -kWeightHalf; m <= kWeightHalf; ++m)
+    const auto design = [&](const std::vector<double>& mag)
     {
-        const double win = 0.5 + 0.5 * std::cos(kPi * m / (kWeightHalf + 1));
-        h[static_cast<std::size_t>(m + kWeightHalf)] = win * frame.p[(m + F) % F] / F;
-    }
-    // Overlap-save convolution with the L-tap filter (blocks of kConvFft - L + 1 outputs).
-    constexpr int kConvFft = 8192;
-    const std::size_t Nc = kConvFft, ncb = Nc / 2 + 1, Ls = static_cast<std::size_t>(L);
-    const std::size_t step = Nc - Ls + 1;
-    const FftPlans conv = plansFor(kConvFft);
-    FftwArray<double> a(Nc), b(Nc);
-    FftwArray<fftw_complex> A(ncb), B(ncb);
-    for (std::size_t i = 0; i < Nc; ++i)
-        b.p[i] = i < Ls ? h[i] / kConvFft : 0.0;
-    fftw_execute_dft_r2c(conv.r2c, b.p, B.p);
-    // out[i] = sum_m h[m] x[i + kWeightHalf - m]: block outputs i0..i0+step-1 need inputs
-    // from i0 + kWeightHalf - (L - 1) on.
-    std::vector<double> out(n);
-    for (std::size_t i0 = 0; i0 < n; i0 += step)
+        for (std::size_t k = 0; k < bins; ++k)
+        {
+            spec.p[k][0] = mag[k];
+            spec.p[k][1] = 0.0;
+        }
+        fftw_execute_dft_c2r(plans.c2r, spec.p, frame.p);
+        std::vector<double> fir(static_cast<std::size_t>(L));
+        for (int m = -kWeightHalf; m <= kWeightHalf; ++m)
+        {
+            const double win = 0.5 + 0.5 * std::cos(kPi * m / (kWeightHalf + 1));
+            fir[static_cast<std::size_t>(m + kWeightHalf)] = win * frame.p[(m + F) % F] / F;
+        }
+        return fir;
+    };
+    const std::vector<double> h = design(gainK);
+    Whitened result;
+    if (haveNoise && weighting == Weighting::wiener)
+        result.noiseShaper = design(noiseK);
+    result.signal = convolveCentred(x.data(), n, h);
+    return result;
+}
+
+/// The excerpt with `model` cancelled by the stage itself (exact inverse, Lagrange of `order`).
+std::vector<float> cancelledExcerpt(const std::vector<float>& excerpt,
+                                    const std::vector<Refl>& model, double sampleRateHz, int order)
+{
+    EchoCancelSettings s;
+    for (const auto& m : model)
+        s.reflections[static_cast<std::size_t>(s.numReflections++)] = {
+            m.delaySamples * 1e3 / sampleRateHz, m.gain};
+    s.interpolationOrder = order;
+    EchoCanceller c;
+    c.prepare(sampleRateHz, 4096, 1);
+    c.setSettings(s);
+    std::vector<float> out = excerpt;
+    for (std::size_t off = 0; off < out.size(); off += 4096)
     {
-        const long first = static_cast<long>(i0) + kWeightHalf - static_cast<long>(Ls) + 1;
-        for (std::size_t i = 0; i < Nc; ++i)
-        {
-            const long j = first + static_cast<long>(i);
-            a.p[i] = j >= 0 && j < static_cast<long>(n)
-                         ? static_cast<double>(x[static_cast<std::size_t>(j)])
-                         : 0.0;
-        }
-        fftw_execute_dft_r2c(conv.r2c, a.p, A.p);
-        for (std::size_t k = 0; k < ncb; ++k)
-        {
-            const double re = A.p[k][0] * B.p[k][0] - A.p[k][1] * B.p[k][1];
-            const double im = A.p[k][0] * B.p[k][1] + A.p[k][1] * B.p[k][0];
-            A.p[k][0] = re;
-            A.p[k][1] = im;
-        }
-        fftw_execute_dft_c2r(conv.c2r, A.p, a.p);
-        for (std::size_t i = 0; i < step && i0 + i < n; ++i)
-            out[i0 + i] = a.p[Ls - 1 + i];
+        float* ch[1] = {out.data() + off};
+        c.process(ch, 1, static_cast<int>(std::min<std::size_t>(4096, out.size() - off)));
     }
     return out;
+}
+
+/// The noise floor as weightedWhitening measures it (mean |X_k|^2 of the quietest 10 % of
+/// Hann frames of kWeightFrame), but measured after cancelling `model`: in an echoic
+/// recording the pauses are filled by echo tails (measured: the quietest frames read 8-180x
+/// the true noise floor below 4 kHz with a 40-80 ms echo of gain 0.5-0.8), which would make the
+/// noise compensation take speech for noise. The cancelled noise is the recording's noise
+/// through 1/A, so each bin is divided by 1/|A|^2 averaged over the bin (A evaluated on a grid
+/// fine enough to resolve its ripple). Empty when the model is unstable or too few frames.
+std::vector<double> noiseFloorAfterCancelling(const std::vector<float>& excerpt,
+                                              const std::vector<Refl>& model, double sampleRateHz,
+                                              int order)
+{
+    EchoCancelSettings check;
+    for (const auto& m : model)
+        check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
+            m.delaySamples * 1e3 / sampleRateHz, m.gain};
+    check.interpolationOrder = order;
+    if (model.empty() || !checkEchoStability(check, sampleRateHz).stable)
+        return {};
+    const std::vector<float> z = cancelledExcerpt(excerpt, model, sampleRateHz, order);
+    const int F = kWeightFrame;
+    const std::size_t Fs = static_cast<std::size_t>(F), bins = Fs / 2 + 1, hop = Fs / 2;
+    if (z.size() < 8 * Fs)
+        return {};
+    std::vector<std::size_t> starts;
+    for (std::size_t s0 = 0; s0 + Fs <= z.size(); s0 += hop)
+        starts.push_back(s0);
+    std::vector<double> energy(starts.size());
+    for (std::size_t f = 0; f < starts.size(); ++f)
+    {
+        double e = 0.0;
+        for (std::size_t i = starts[f]; i < starts[f] + Fs; ++i)
+            e += static_cast<double>(z[i]) * z[i];
+        energy[f] = e;
+    }
+    const double quietThr = quantile(energy, 0.1);
+    const std::vector<double> w = hann(F);
+    const FftPlans plans = plansFor(F);
+    FftwArray<double> frame(Fs);
+    FftwArray<fftw_complex> spec(bins);
+    // Per bin, the median over the quiet frames divided by ln 2 (the median of the exponential
+    // distribution a noise bin's power follows; common practice): a few quiet frames that still
+    // hold speech do not move it, where they would move the mean.
+    std::vector<std::vector<double>> powers(bins);
+    int nq = 0;
+    for (std::size_t f = 0; f < starts.size(); ++f)
+    {
+        if (energy[f] > quietThr)
+            continue;
+        for (std::size_t i = 0; i < Fs; ++i)
+            frame.p[i] = w[i] * z[starts[f] + i];
+        fftw_execute_dft_r2c(plans.r2c, frame.p, spec.p);
+        for (std::size_t k = 0; k < bins; ++k)
+            powers[k].push_back(spec.p[k][0] * spec.p[k][0] + spec.p[k][1] * spec.p[k][1]);
+        ++nq;
+    }
+    if (nq < 4)
+        return {};
+    std::vector<double> pn(bins, 0.0);
+    for (std::size_t k = 0; k < bins; ++k)
+        pn[k] = quantile(powers[k], 0.5) / std::numbers::ln2;
+    // A(e^{jw}) = 1 + sum a_k e^{-jw M_k} L_k(e^{jw}) on a grid of at least 8 points per
+    // ripple period of the longest path, then 1/|A|^2 averaged over each analysis bin.
+    std::size_t span = 1;
+    for (const auto& m : model)
+    {
+        const PathTaps p = pathFor(m.delaySamples, order);
+        span = std::max(span, static_cast<std::size_t>(p.whole + p.taps));
+    }
+    std::size_t Nf = Fs;
+    while (Nf < 8 * span)
+        Nf *= 2;
+    const FftPlans fine = plansFor(static_cast<int>(Nf));
+    FftwArray<double> poly(Nf);
+    FftwArray<fftw_complex> resp(Nf / 2 + 1);
+    std::fill(poly.p, poly.p + Nf, 0.0);
+    poly.p[0] = 1.0;
+    for (const auto& m : model)
+    {
+        const PathTaps p = pathFor(m.delaySamples, order);
+        for (int i = 0; i < p.taps; ++i)
+            poly.p[static_cast<std::size_t>(p.whole + i)] += m.gain * p.h[i];
+    }
+    fftw_execute_dft_r2c(fine.r2c, poly.p, resp.p);
+    const std::size_t ratio = Nf / Fs;
+    std::vector<double> inv(bins, 1.0);
+    for (std::size_t k = 0; k < bins; ++k)
+    {
+        double acc = 0.0;
+        int cnt = 0;
+        for (long j = static_cast<long>(k * ratio) - static_cast<long>(ratio / 2);
+             j <= static_cast<long>(k * ratio + ratio / 2); ++j)
+        {
+            const long jj = std::clamp(j < 0 ? -j : j, 0L, static_cast<long>(Nf / 2));
+            const double re = resp.p[jj][0], im = resp.p[jj][1];
+            acc += 1.0 / std::max(re * re + im * im, 1e-12);
+            ++cnt;
+        }
+        inv[k] = acc / cnt;
+    }
+    // The frames see 1/|A|^2 through their window's resolution, so a bin-by-bin division is
+    // wrong where the ripple is finer than that; over +-16 bins both sides average the ripple,
+    // and the noise floor is smooth at that scale (it is liftered further in the whitening).
+    constexpr long kBox = 16;
+    std::vector<double> corrected(bins, 0.0);
+    for (std::size_t k = 0; k < bins; ++k)
+    {
+        double num = 0.0, den = 0.0;
+        for (long j = static_cast<long>(k) - kBox; j <= static_cast<long>(k) + kBox; ++j)
+        {
+            const std::size_t jj = static_cast<std::size_t>(
+                std::clamp(j < 0 ? -j : j, 0L, static_cast<long>(bins) - 1));
+            num += pn[jj];
+            den += inv[jj];
+        }
+        corrected[k] = num / den;
+    }
+    pn = corrected;
+    return pn;
+}
+
+/// Sets up the refinement problem on the excerpt: pre-filtered (weightedWhitening with the
+/// given weighting and noise floor), its active blocks, and for Wiener weighting the noise
+/// stretch of the noise compensation (noiseFit, linked from fit). fit.order, fit.pad set.
+void prepareFit(Fit& fit, Fit& noiseFit, const std::vector<float>& excerpt, int lifterCut,
+                Weighting weighting, const std::vector<double>* noiseFloor, double sampleRateHz)
+{
+    const std::size_t len = excerpt.size();
+    fit.n = len;
+    fit.noise = nullptr;
+    {
+        const Whitened whitened = weightedWhitening(excerpt, lifterCut, weighting, noiseFloor);
+        const std::vector<double>& filtered = whitened.signal;
+        fit.in.assign(fit.pad + len, 0.0f);
+        std::copy(filtered.begin(), filtered.end(), fit.in.begin() + static_cast<long>(fit.pad));
+        const std::size_t blocks = (len + kMaskBlock - 1) / kMaskBlock;
+        const std::vector<double> be = blockEnergies(excerpt.data(), len, kMaskBlock);
+        const double thr = quantile(be, kDropQuiet);
+        fit.active.assign(blocks + 1, 0.0);
+        double activeSamples = 0.0;
+        for (std::size_t b = 0; b < blocks; ++b)
+        {
+            fit.active[b] = be[b] > thr ? 1.0 : 0.0;
+            activeSamples +=
+                fit.active[b] *
+                static_cast<double>(std::min(len, (b + 1) * kMaskBlock) - b * kMaskBlock);
+        }
+        if (!whitened.noiseShaper.empty() && activeSamples > 0.0)
+        {
+            // The noise stretch: unit white Gaussian noise (a fixed seed, so the fit's
+            // objective is a smooth function of the model) through the noise shaper.
+            const std::size_t ns =
+                std::min(len, static_cast<std::size_t>(kNoiseSeconds * sampleRateHz));
+            const std::vector<double>& q = whitened.noiseShaper;
+            std::vector<double> white(ns);
+            std::uint64_t state = 0x5EED0F0ECB0ull;
+            const auto uniform = [&state]
+            {
+                // SplitMix64 (S. Vigna), top 53 bits
+                std::uint64_t v = (state += 0x9E3779B97F4A7C15ull);
+                v = (v ^ (v >> 30)) * 0xBF58476D1CE4E5B9ull;
+                v = (v ^ (v >> 27)) * 0x94D049BB133111EBull;
+                v ^= v >> 31;
+                return (static_cast<double>(v >> 11) + 0.5) * (1.0 / 9007199254740992.0);
+            };
+            for (std::size_t i = 0; i + 1 < white.size(); i += 2)
+            {
+                // Box-Muller (G. E. P. Box, M. E. Muller, 1958)
+                const double r = std::sqrt(-2.0 * std::log(uniform())), ph = 2.0 * kPi * uniform();
+                white[i] = r * std::cos(ph);
+                white[i + 1] = r * std::sin(ph);
+            }
+            noiseFit.order = fit.order;
+            noiseFit.n = ns;
+            noiseFit.pad = fit.pad;
+            noiseFit.in.assign(noiseFit.pad + ns, 0.0f);
+            const std::vector<double> shaped = convolveCentred(white.data(), ns, q);
+            for (std::size_t i = 0; i < ns; ++i)
+                noiseFit.in[noiseFit.pad + i] = static_cast<float>(shaped[i]);
+            noiseFit.active.assign(ns / kMaskBlock + 2, 1.0);
+            fit.noise = &noiseFit;
+            fit.noiseScale = activeSamples / static_cast<double>(ns);
+        }
+    }
 }
 
 /// Hann-window overlap rho(D) = sum w[n] w[n + D] / sum w^2: the share of an echo at lag D
@@ -949,6 +1256,10 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
     const int qmin = static_cast<int>(std::floor(minD));
     const int qmax = static_cast<int>(std::ceil(maxD));
 
+    // The whole recording's frame statistics, on a second thread while the excerpt and its
+    // refinement problem are prepared (they only read the recording).
+    std::future<SpectralStats> statsJob =
+        std::async(std::launch::async, [=] { return spectralStats(mono, n, F, kDropQuiet); });
     // Refinement excerpt: the loudest stretch of at most refineSeconds.
     const std::size_t len =
         std::min(n, static_cast<std::size_t>(std::max(1.0, opt.refineSeconds) * sampleRateHz));
@@ -985,21 +1296,13 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
     fit.order = order;
     fit.n = len;
     fit.pad = static_cast<std::size_t>(std::ceil(maxD)) + static_cast<std::size_t>(order) + 4;
-    {
-        const std::vector<double> filtered = weightedWhitening(excerpt, lifterCut);
-        fit.in.assign(fit.pad + len, 0.0f);
-        std::copy(filtered.begin(), filtered.end(), fit.in.begin() + static_cast<long>(fit.pad));
-        const std::size_t blocks = (len + kMaskBlock - 1) / kMaskBlock;
-        const std::vector<double> be = blockEnergies(excerpt.data(), len, kMaskBlock);
-        const double thr = quantile(be, kDropQuiet);
-        fit.active.assign(blocks + 1, 0.0);
-        for (std::size_t b = 0; b < blocks; ++b)
-            fit.active[b] = be[b] > thr ? 1.0 : 0.0;
-    }
+    Fit noiseFit;
+    prepareFit(fit, noiseFit, excerpt, lifterCut, Weighting::threshold, nullptr, sampleRateHz);
+    fit.initLength = static_cast<std::size_t>(kInitSeconds * sampleRateHz);
 
     // Frame-averaged log spectrum of the whole recording, and the band clear of the noise
     // (smoothed active-frame spectrum at least kBandSnrDb over the quietest frames').
-    const SpectralStats st = spectralStats(mono, n, F, kDropQuiet);
+    const SpectralStats st = statsJob.get();
     Quefrency qf(F);
     std::vector<double> band;
     double bandShare = 0.0;
@@ -1197,6 +1500,36 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             std::max(out.strongestRejectedConfidence, confidences[worst]);
         model.erase(model.begin() + static_cast<long>(worst));
         confidences.erase(confidences.begin() + static_cast<long>(worst));
+    }
+    // Final refinement with the noise floor measured without the echo: Wiener-weighted
+    // whitening (a wider band than the threshold: a sharper delay) and the noise's own energy
+    // taken off the fit (see Fit::noise).
+    if (!model.empty())
+    {
+        const std::vector<double> floor =
+            noiseFloorAfterCancelling(excerpt, model, sampleRateHz, order);
+        if (!floor.empty())
+        {
+            Fit fine;
+            Fit fineNoise;
+            fine.order = order;
+            fine.pad = fit.pad;
+            prepareFit(fine, fineNoise, excerpt, lifterCut, Weighting::wiener, &floor,
+                       sampleRateHz);
+            std::vector<Refl> refined = model;
+            refineAll(fine, refined, minD, maxD, 8, 0);
+            const std::vector<double> c = refineRobust(fine, refined, minD, maxD, 2);
+            EchoCancelSettings check;
+            for (const auto& m : refined)
+                check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
+                    m.delaySamples * 1e3 / sampleRateHz, m.gain};
+            check.interpolationOrder = order;
+            if (c.size() == refined.size() && checkEchoStability(check, sampleRateHz).stable)
+            {
+                model = refined;
+                confidences = c;
+            }
+        }
     }
     for (std::size_t k = 0; k < model.size(); ++k)
     {
