@@ -205,6 +205,12 @@ private:
         bool queued = false; // a change that waits for the running crossfade to end
         StageSpec queuedSpec;
         bool queuedAllowed = true;
+        /// While the live sections glide: the settings carried along the same curve (where
+        /// the stage is, in the units sectionsCanGlide judges), over [glideStart, + glideLen).
+        bool settingsGliding = false;
+        long long glideStart = 0;
+        int glideLen = 0;
+        SettingsPath settingsPath;
     };
     /// A section's glide in the natural domain (Smoothing/Transition.h).
     struct Glide
@@ -256,6 +262,11 @@ private:
     void retarget(int stage, const StageSpec& spec, bool allowed) noexcept;
     void startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept;
     void startGlide(int stage, const StageSpec& spec) noexcept;
+    /// Where a stage's settings are now and how fast they move (SettingsPath's coordinates,
+    /// per unit t of a glide `len` samples long; `accel`, if given, d2/dt2 likewise), and
+    /// the span that glide gives a bend.
+    StageSpec settingsNow(const Stage& st, int len, double velocity[4], double& span,
+                          double* accel = nullptr) const noexcept;
     void freezeGlides(const Voice& v) noexcept;
     void update() noexcept; // at every update point while something moves
     /// Starts a segment's cubic: end values and slopes, six each then two zeros.

@@ -397,6 +397,12 @@ void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, do
 
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
 {
+    const double none[4] = {0.0, 0.0, 0.0, 0.0};
+    return sectionsCanGlide(a, b, none);
+}
+
+bool sectionsCanGlide(const StageSpec& a, const StageSpec& b, const double reach[4]) noexcept
+{
     if (!a.enabled || !b.enabled || !isSectionType(a.type) || a.type != b.type ||
         a.order != b.order || a.alignment != b.alignment || a.channels != b.channels ||
         a.design != b.design)
@@ -414,8 +420,64 @@ bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
     const double qRatio = (a.q > 0.0 && b.q > 0.0) ? std::abs(std::log2(a.q / b.q)) : 0.0;
     const double slopeRatio =
         (a.slope > 0.0 && b.slope > 0.0) ? std::abs(std::log2(a.slope / b.slope)) : 0.0;
-    return octaves <= 1.0 && std::abs(a.gainDb - b.gainDb) <= 12.0 && qRatio <= 1.0 &&
-           slopeRatio <= 1.0;
+    return octaves + std::abs(reach[0]) <= 1.0 &&
+           std::abs(a.gainDb - b.gainDb) + std::abs(reach[1]) <= 12.0 &&
+           qRatio + std::abs(reach[2]) <= 1.0 && slopeRatio + std::abs(reach[3]) <= 1.0;
+}
+
+void SettingsPath::coordinates(const StageSpec& s, bool logQ, double x[4]) noexcept
+{
+    x[0] = std::log2(std::max(s.freqHz, 1e-3));
+    x[1] = s.gainDb;
+    x[2] = logQ ? std::log2(std::max(s.q, 1e-9)) : s.q;
+    x[3] = std::log2(std::max(s.slope, 1e-9));
+}
+
+StageSpec SettingsPath::settings(const StageSpec& like, const double x[4], bool logQ) noexcept
+{
+    StageSpec s = like;
+    s.freqHz = std::exp2(x[0]);
+    s.gainDb = x[1];
+    s.q = logQ ? std::exp2(x[2]) : x[2];
+    s.slope = std::exp2(x[3]);
+    return s;
+}
+
+SettingsPath::SettingsPath(const StageSpec& a, const StageSpec& b, const double velocity[4],
+                           double span) noexcept
+{
+    // q = 0 (the alignment's own) never glides to a q > 0 (sectionsCanGlide), so q moves
+    // in octaves unless it stays 0.
+    logQ = a.q > 0.0 && b.q > 0.0;
+    bendSpan = std::clamp(span, 1e-3, 1.0);
+    invBendSpan = 1.0 / bendSpan;
+    double xb[4];
+    coordinates(a, logQ, base);
+    coordinates(b, logQ, xb);
+    for (int i = 0; i < 4; ++i)
+    {
+        step[i] = xb[i] - base[i];
+        bend[i] = logQ || i != 2 ? velocity[i] : 0.0;
+    }
+}
+
+void SettingsPath::at(double t, double x[4], double rate[4], double* rate2) const noexcept
+{
+    // As pathPoint: x = base + step s(t) + bend span B(t / span).
+    const double tc = std::clamp(t, 0.0, 1.0);
+    const double s = transitionCurve(tc), ds = transitionSlope(tc);
+    const double b = bendSpan * bendCurve(tc * invBendSpan), db = bendSlope(tc * invBendSpan);
+    // s'' = 420 t^2 (1 - t)^2 (1 - 2 t); B''(r) = -(1 - r)^2 (8 - 20 r), over the span.
+    const double a = tc * (1.0 - tc), r = std::min(tc * invBendSpan, 1.0);
+    const double d2s = 420.0 * a * a * (1.0 - 2.0 * tc);
+    const double d2b = -(1.0 - r) * (1.0 - r) * (8.0 - 20.0 * r) * invBendSpan;
+    for (int i = 0; i < 4; ++i)
+    {
+        x[i] = base[i] + s * step[i] + b * bend[i];
+        rate[i] = t >= 1.0 ? 0.0 : ds * step[i] + db * bend[i];
+        if (rate2 != nullptr)
+            rate2[i] = t >= 1.0 ? 0.0 : d2s * step[i] + d2b * bend[i];
+    }
 }
 
 } // namespace kerf::dsp

@@ -190,4 +190,35 @@ void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, do
 /// otherwise the change crossfades. Both must be enabled section stages.
 bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept;
 
+/// A stage's settings carried along the same curve as its sections' glides, so that a new
+/// target is judged from where the stage is rather than from the last target (a short glide
+/// that takes over a long one that had barely begun would otherwise make a move larger than
+/// any glide may make; Chain.cpp). Coordinates: log2 of the frequency, the gain in dB, log2
+/// of q (q itself when it is 0, the pass alignment's own) and log2 of the slope; each is
+/// base + step s(t) + bend span B(t / span), as GlidePath's coordinates are.
+struct SettingsPath
+{
+    double base[4] = {}, step[4] = {}, bend[4] = {};
+    bool logQ = true;
+    double bendSpan = 1.0, invBendSpan = 1.0;
+
+    SettingsPath() = default;
+    /// From settings a (moving at `velocity` per unit t in these coordinates) to b, the bend
+    /// spent over the first `span` of the glide (as GlidePath).
+    SettingsPath(const StageSpec& a, const StageSpec& b, const double velocity[4],
+                 double span) noexcept;
+    /// The coordinates, their rates d/dt and (if `rate2` is given) d2/dt2 at time fraction t.
+    void at(double t, double x[4], double rate[4], double* rate2 = nullptr) const noexcept;
+    /// The coordinates of settings s (q as logQ says).
+    static void coordinates(const StageSpec& s, bool logQ, double x[4]) noexcept;
+    /// Settings `like` with frequency, gain, q and slope from coordinates x.
+    static StageSpec settings(const StageSpec& like, const double x[4], bool logQ) noexcept;
+};
+
+/// sectionsCanGlide from settings a that move on: `reach` is, in SettingsPath's
+/// coordinates, the further move that would demand as much of the glide as the jump in
+/// acceleration where it takes over (Chain.cpp, retarget); the move plus that must stay
+/// within the glide limits.
+bool sectionsCanGlide(const StageSpec& a, const StageSpec& b, const double reach[4]) noexcept;
+
 } // namespace kerf::dsp

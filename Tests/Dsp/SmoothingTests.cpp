@@ -788,12 +788,15 @@ TEST_CASE("smoothing: splatter bar for glides retargeted before they end", "[smo
     // shorter one spends the old one's velocity over the old one's length (GlidePath's bend
     // span). Measured: 80 ms and 1 s glides -91.9 dBFS (coasting over the whole new glide
     // instead -10.0, restarting from rest -50.6); 20 and 80 ms -84.4 (from rest -58.2).
-    // Not met (with or without the velocity carried, so not tested here): a short glide
-    // (12 or 20 ms) after a 1 s one that had barely begun, -47 to -54 dBFS: the hand's
-    // targets walk on while the section lags, and whether a change glides is judged from
-    // the last target, not from where the section is, so the short glide makes a larger
-    // move than a glide may make that fast.
-    for (const auto& times : std::vector<std::vector<double>>{{80.0, 1000.0}, {20.0, 80.0}})
+    // A short glide that takes over a long one that had barely begun: the hand's targets
+    // walk on while the sections lag, so the move from where a section is can be far larger
+    // than from the last target. Judged from the last target (the layer before the stage's
+    // settings were carried along its sections' curve), this test measured: 12 ms and 1 s
+    // glides -47.5 dBFS, 20 ms and 1 s -54.3, 12 and 80 ms -79.3 (20 and 80 ms -84.4).
+    // Judged from where the stage is and crossfading what is too far from there: -97.3,
+    // -113.9, -86.5 (-87.9), with 80 ms and 1 s -101.8.
+    for (const auto& times : std::vector<std::vector<double>>{
+             {80.0, 1000.0}, {20.0, 80.0}, {12.0, 1000.0}, {20.0, 1000.0}, {12.0, 80.0}})
     {
         INFO("glide times " << times[0] << " and " << times[1] << " ms");
         const double mixed = kerf::test::worstSplatterDbfs(
