@@ -33,6 +33,8 @@ constexpr double kDropQuiet = 0.3;
 /// (noise/signal) a/(1 - a^2), so only bands at least 20 dB above the noise floor are used
 /// until the noise floor has been measured without the echo and can be compensated.
 constexpr double kWeightSnr = 100.0;
+/// Reflections up to this delay get the final noise-compensated refinement, ms.
+constexpr double kFineMaxMs = 25.0;
 /// Length of the excerpt's start that ranks a new candidate's start delays, s.
 constexpr double kInitSeconds = 4.0;
 /// Length of the synthetic noise stretch of the noise compensation, s (Fit::noise).
@@ -266,6 +268,7 @@ struct Fit
     std::size_t pad = 0;
     std::size_t n = 0;
     std::size_t initLength = SIZE_MAX; ///< samples the start grid of a new candidate uses
+    double activeSamples = 0.0;        ///< of a noise stretch: the samples its energy counts
     std::vector<double> active;        // weight per kMaskBlock block (0: left out)
     int order = 5;
     std::vector<float> z;
@@ -502,7 +505,7 @@ std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD
                 if (fit.noise && fit.noiseGradient.size() >= 2)
                 {
                     // this block's share of the noise compensation (see Fit::noise)
-                    const double share = wsum / static_cast<double>(fit.noise->n);
+                    const double share = wsum / fit.noise->activeSamples;
                     az -= share * fit.noiseGradient[0];
                     dz -= share * fit.noiseGradient[1];
                 }
@@ -907,7 +910,8 @@ std::vector<double> noiseFloorAfterCancelling(const std::vector<float>& excerpt,
 /// given weighting and noise floor), its active blocks, and for Wiener weighting the noise
 /// stretch of the noise compensation (noiseFit, linked from fit). fit.order, fit.pad set.
 void prepareFit(Fit& fit, Fit& noiseFit, const std::vector<float>& excerpt, int lifterCut,
-                Weighting weighting, const std::vector<double>* noiseFloor, double sampleRateHz)
+                Weighting weighting, const std::vector<double>* noiseFloor, double sampleRateHz,
+                std::size_t warmupSamples = 0)
 {
     const std::size_t len = excerpt.size();
     fit.n = len;
@@ -933,8 +937,13 @@ void prepareFit(Fit& fit, Fit& noiseFit, const std::vector<float>& excerpt, int 
         {
             // The noise stretch: unit white Gaussian noise (a fixed seed, so the fit's
             // objective is a smooth function of the model) through the noise shaper.
-            const std::size_t ns =
+            // A warm-up of warmupSamples (whole mask blocks, left out of the energy) first: the
+            // inverse's recursion starts from silence and needs several of its delays to reach
+            // the steady state the recording's noise is in.
+            const std::size_t warm = (warmupSamples + kMaskBlock - 1) / kMaskBlock * kMaskBlock;
+            const std::size_t counted =
                 std::min(len, static_cast<std::size_t>(kNoiseSeconds * sampleRateHz));
+            const std::size_t ns = warm + counted;
             const std::vector<double>& q = whitened.noiseShaper;
             std::vector<double> white(ns);
             std::uint64_t state = 0x5EED0F0ECB0ull;
@@ -962,8 +971,11 @@ void prepareFit(Fit& fit, Fit& noiseFit, const std::vector<float>& excerpt, int 
             for (std::size_t i = 0; i < ns; ++i)
                 noiseFit.in[noiseFit.pad + i] = static_cast<float>(shaped[i]);
             noiseFit.active.assign(ns / kMaskBlock + 2, 1.0);
+            std::fill(noiseFit.active.begin(),
+                      noiseFit.active.begin() + static_cast<long>(warm / kMaskBlock), 0.0);
+            noiseFit.activeSamples = static_cast<double>(counted);
             fit.noise = &noiseFit;
-            fit.noiseScale = activeSamples / static_cast<double>(ns);
+            fit.noiseScale = activeSamples / static_cast<double>(counted);
         }
     }
 }
@@ -1501,10 +1513,30 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
         model.erase(model.begin() + static_cast<long>(worst));
         confidences.erase(confidences.begin() + static_cast<long>(worst));
     }
-    // Final refinement with the noise floor measured without the echo: Wiener-weighted
-    // whitening (a wider band than the threshold: a sharper delay) and the noise's own energy
-    // taken off the fit (see Fit::noise).
-    if (!model.empty())
+    // Final refinement of the short reflections (up to kFineMaxMs) with the noise floor
+    // measured without the echo: Wiener-weighted whitening and the noise's own energy taken off
+    // the fit (see Fit::noise). A short echo's ripple has few periods inside the band that
+    // stands 20 dB clear of the noise, so the threshold fit pins its delay and gain loosely
+    // (measured at 2 ms: delays off by up to 1.7 samples); the wider band sharpens both. Longer
+    // reflections keep the threshold fit's values (they meet the bars with it, and on the
+    // speech-like source the wider band lets its pitch structure pull large gains down).
+    std::size_t longCount = 0;
+    {
+        // long ones first (held), short ones last (refined), confidences alongside
+        std::vector<std::pair<Refl, double>> both;
+        for (std::size_t k = 0; k < model.size(); ++k)
+            both.emplace_back(model[k], confidences[k]);
+        const auto isLong = [&](const std::pair<Refl, double>& r)
+        { return r.first.delaySamples > kFineMaxMs * 1e-3 * sampleRateHz; };
+        std::stable_partition(both.begin(), both.end(), isLong);
+        longCount = static_cast<std::size_t>(std::count_if(both.begin(), both.end(), isLong));
+        for (std::size_t k = 0; k < both.size(); ++k)
+        {
+            model[k] = both[k].first;
+            confidences[k] = both[k].second;
+        }
+    }
+    if (!model.empty() && longCount < model.size())
     {
         const std::vector<double> floor =
             noiseFloorAfterCancelling(excerpt, model, sampleRateHz, order);
@@ -1514,11 +1546,15 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             Fit fineNoise;
             fine.order = order;
             fine.pad = fit.pad;
-            prepareFit(fine, fineNoise, excerpt, lifterCut, Weighting::wiener, &floor,
-                       sampleRateHz);
+            // Warm-up: 12 times the longest path (a gain of 0.8 leaves 0.8^24 of the start).
+            std::size_t longest = 0;
+            for (const auto& m : model)
+                longest = std::max(longest, static_cast<std::size_t>(std::ceil(m.delaySamples)));
+            prepareFit(fine, fineNoise, excerpt, lifterCut, Weighting::wiener, &floor, sampleRateHz,
+                       12 * (longest + static_cast<std::size_t>(order) + 1));
             std::vector<Refl> refined = model;
-            refineAll(fine, refined, minD, maxD, 8, 0);
-            const std::vector<double> c = refineRobust(fine, refined, minD, maxD, 2);
+            refineAll(fine, refined, minD, maxD, 8, longCount);
+            const std::vector<double> c = refineRobust(fine, refined, minD, maxD, 2, longCount);
             EchoCancelSettings check;
             for (const auto& m : refined)
                 check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
@@ -1527,7 +1563,8 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             if (c.size() == refined.size() && checkEchoStability(check, sampleRateHz).stable)
             {
                 model = refined;
-                confidences = c;
+                for (std::size_t k = longCount; k < model.size(); ++k)
+                    confidences[k] = c[k];
             }
         }
     }
