@@ -388,7 +388,8 @@ void ChainProcessor::setChain(const ChainSpec& chain) noexcept
     hasPending = true;
 }
 
-void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
+void ChainProcessor::startGlide(int stage, const StageSpec& spec,
+                                const SettingsMotion& motion) noexcept
 {
     Stage& st = stages[static_cast<std::size_t>(stage)];
     const StageSections designed = designStage(spec, sampleRate);
@@ -397,7 +398,7 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
         startCrossfade(stage, spec, true);
         return;
     }
-    const int len = transitionSamples(std::max(glideMs_, kMinGlideMs), sampleRate);
+    const int len = motion.len;
     for (int j = 0; j < designed.count; ++j)
     {
         const int idx = st.live.first + j;
@@ -445,41 +446,46 @@ void ChainProcessor::startGlide(int stage, const StageSpec& spec) noexcept
     }
     // The settings follow the same curve from where they are (with their velocity, over the
     // same bend span), so that the next target is judged from where the stage then is.
-    double velocity[4];
-    double span = 1.0;
-    const StageSpec now = settingsNow(st, len, velocity, span);
-    st.settingsPath = SettingsPath(now, spec, velocity, span);
+    st.settingsPath = SettingsPath(motion.at, motion.to, motion.velocity, motion.span);
+    for (int i = 0; i < 4; ++i)
+        st.settingsTo[i] = motion.to[i];
     st.settingsGliding = true;
     st.glideStart = clock;
     st.glideLen = len;
     st.spec = spec;
 }
 
-StageSpec ChainProcessor::settingsNow(const Stage& st, int len, double velocity[4], double& span,
-                                      double* accel) const noexcept
+ChainProcessor::SettingsMotion ChainProcessor::settingsNow(const Stage& st,
+                                                           const StageSpec& target) const noexcept
 {
+    SettingsMotion m;
+    m.len = transitionSamples(std::max(glideMs_, kMinGlideMs), sampleRate);
+    SettingsPath::coordinates(target, m.to);
     for (int i = 0; i < 4; ++i)
+        m.velocity[i] = m.accel[i] = 0.0;
+    if (!st.settingsGliding)
     {
-        velocity[i] = 0.0;
-        if (accel != nullptr)
-            accel[i] = 0.0;
+        SettingsPath::coordinates(st.spec, m.at);
+        return m;
     }
-    span = 1.0;
-    if (!st.settingsGliding || clock >= st.glideStart + st.glideLen)
-        return st.spec;
+    if (clock >= st.glideStart + st.glideLen)
+    {
+        for (int i = 0; i < 4; ++i)
+            m.at[i] = st.settingsTo[i];
+        return m;
+    }
     const double oldLen = static_cast<double>(st.glideLen);
-    double x[4], rate[4], rate2[4];
-    st.settingsPath.at(static_cast<double>(clock - st.glideStart) / oldLen, x, rate, rate2);
+    double rate[4], rate2[4];
+    st.settingsPath.at(static_cast<double>(clock - st.glideStart) / oldLen, m.at, rate, rate2);
     // d/dt per unit of the old glide's t, then of the new one's (as startGlide's sections).
-    const double scale = static_cast<double>(len) / oldLen;
+    const double scale = static_cast<double>(m.len) / oldLen;
     for (int i = 0; i < 4; ++i)
     {
-        velocity[i] = rate[i] * scale;
-        if (accel != nullptr)
-            accel[i] = rate2[i] * scale * scale;
+        m.velocity[i] = rate[i] * scale;
+        m.accel[i] = rate2[i] * scale * scale;
     }
-    span = std::min(1.0, oldLen / static_cast<double>(len));
-    return SettingsPath::settings(st.spec, x, st.settingsPath.logQ);
+    m.span = std::min(1.0, oldLen / static_cast<double>(m.len));
+    return m;
 }
 
 void ChainProcessor::startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept
@@ -514,19 +520,20 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
     // smoothly (the path is C1 there, not C3): measured (the hand with 12 and 80 ms glides,
     // SmoothingTests): counted once -83.1 dBFS, twice -86.5, about the 12 ms glides' own
     // -86.8 without takeovers.
-    bool glidable = allowed && st.live.kind == Voice::Kind::sections;
+    bool glidable =
+        allowed && st.live.kind == Voice::Kind::sections && sectionsKeepStructure(st.spec, spec);
+    SettingsMotion motion;
     if (glidable)
     {
-        const int len = transitionSamples(std::max(glideMs_, kMinGlideMs), sampleRate);
+        motion = settingsNow(st, spec);
         const double shortest =
-            static_cast<double>(transitionSamples(kMinGlideMs, sampleRate)) / len;
-        double velocity[4], accel[4], reach[4];
-        double span = 1.0;
-        const StageSpec now = settingsNow(st, len, velocity, span, accel);
+            static_cast<double>(transitionSamples(kMinGlideMs, sampleRate)) / motion.len;
         // Per unit t^2 of the new glide, then per unit t^2 of T0 (a factor (T0 / len)^2).
+        double reach[4];
         for (int i = 0; i < 4; ++i)
-            reach[i] = 2.0 * (8.0 * velocity[i] / span + accel[i]) / 7.513 * shortest * shortest;
-        glidable = sectionsCanGlide(now, spec, reach);
+            reach[i] = 2.0 * (8.0 * motion.velocity[i] / motion.span + motion.accel[i]) / 7.513 *
+                       shortest * shortest;
+        glidable = glideMoveWithin(motion.at, motion.to, reach);
     }
     if (st.fading)
     {
@@ -535,7 +542,7 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
             st.queued = false;
         else if (glidable)
         {
-            startGlide(stage, spec);
+            startGlide(stage, spec, motion);
             st.queued = false;
         }
         else
@@ -549,7 +556,7 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
     if (spec == st.spec)
         return;
     if (glidable)
-        startGlide(stage, spec);
+        startGlide(stage, spec, motion);
     else
         startCrossfade(stage, spec, allowed);
 }

@@ -211,6 +211,7 @@ private:
         long long glideStart = 0;
         int glideLen = 0;
         SettingsPath settingsPath;
+        double settingsTo[4] = {}; // the coordinates of spec while settingsGliding
     };
     /// A section's glide in the natural domain (Smoothing/Transition.h).
     struct Glide
@@ -261,12 +262,16 @@ private:
     void releaseVoice(Voice& v) noexcept;
     void retarget(int stage, const StageSpec& spec, bool allowed) noexcept;
     void startCrossfade(int stage, const StageSpec& spec, bool allowed) noexcept;
-    void startGlide(int stage, const StageSpec& spec) noexcept;
-    /// Where a stage's settings are now and how fast they move (SettingsPath's coordinates,
-    /// per unit t of a glide `len` samples long; `accel`, if given, d2/dt2 likewise), and
-    /// the span that glide gives a bend.
-    StageSpec settingsNow(const Stage& st, int len, double velocity[4], double& span,
-                          double* accel = nullptr) const noexcept;
+    /// Where a stage's settings are and how they move, for a new glide `len` samples long
+    /// (SettingsPath's coordinates; rates per unit t of the new glide), and its target.
+    struct SettingsMotion
+    {
+        int len = 0;
+        double at[4], velocity[4], accel[4], to[4];
+        double span = 1.0;
+    };
+    SettingsMotion settingsNow(const Stage& st, const StageSpec& target) const noexcept;
+    void startGlide(int stage, const StageSpec& spec, const SettingsMotion& motion) noexcept;
     void freezeGlides(const Voice& v) noexcept;
     void update() noexcept; // at every update point while something moves
     /// Starts a segment's cubic: end values and slopes, six each then two zeros.

@@ -395,13 +395,7 @@ void foldedAtBatch(const GlidePath* const* paths, const double* t, int count, do
         paths[i]->foldedAt(t[i], value[i], slope[i]);
 }
 
-bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
-{
-    const double none[4] = {0.0, 0.0, 0.0, 0.0};
-    return sectionsCanGlide(a, b, none);
-}
-
-bool sectionsCanGlide(const StageSpec& a, const StageSpec& b, const double reach[4]) noexcept
+bool sectionsKeepStructure(const StageSpec& a, const StageSpec& b) noexcept
 {
     if (!a.enabled || !b.enabled || !isSectionType(a.type) || a.type != b.type ||
         a.order != b.order || a.alignment != b.alignment || a.channels != b.channels ||
@@ -414,50 +408,50 @@ bool sectionsCanGlide(const StageSpec& a, const StageSpec& b, const double reach
     // nothing about the settings: leaving or reaching 0 dB crossfades.
     const bool carriesGain = a.type == StageType::peaking || a.type == StageType::lowShelf ||
                              a.type == StageType::highShelf || a.type == StageType::tilt;
-    if (carriesGain && (a.gainDb == 0.0) != (b.gainDb == 0.0))
-        return false;
-    const double octaves = std::abs(std::log2(std::max(a.freqHz, 1e-3) / std::max(b.freqHz, 1e-3)));
-    const double qRatio = (a.q > 0.0 && b.q > 0.0) ? std::abs(std::log2(a.q / b.q)) : 0.0;
-    const double slopeRatio =
-        (a.slope > 0.0 && b.slope > 0.0) ? std::abs(std::log2(a.slope / b.slope)) : 0.0;
-    return octaves + std::abs(reach[0]) <= 1.0 &&
-           std::abs(a.gainDb - b.gainDb) + std::abs(reach[1]) <= 12.0 &&
-           qRatio + std::abs(reach[2]) <= 1.0 && slopeRatio + std::abs(reach[3]) <= 1.0;
+    return !(carriesGain && (a.gainDb == 0.0) != (b.gainDb == 0.0));
 }
 
-void SettingsPath::coordinates(const StageSpec& s, bool logQ, double x[4]) noexcept
+bool glideMoveWithin(const double a[4], const double b[4], const double reach[4]) noexcept
+{
+    // Frequency within an octave, gain within 12 dB, Q and slope within a factor of two (a
+    // q of 0 stays 0: sectionsKeepStructure).
+    const double limit[4] = {1.0, 12.0, 1.0, 1.0};
+    for (int i = 0; i < 4; ++i)
+        if (!(std::abs(b[i] - a[i]) + std::abs(reach[i]) <= limit[i]))
+            return false;
+    return true;
+}
+
+bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept
+{
+    if (!sectionsKeepStructure(a, b))
+        return false;
+    double xa[4], xb[4];
+    const double none[4] = {0.0, 0.0, 0.0, 0.0};
+    SettingsPath::coordinates(a, xa);
+    SettingsPath::coordinates(b, xb);
+    return glideMoveWithin(xa, xb, none);
+}
+
+void SettingsPath::coordinates(const StageSpec& s, double x[4]) noexcept
 {
     x[0] = std::log2(std::max(s.freqHz, 1e-3));
     x[1] = s.gainDb;
-    x[2] = logQ ? std::log2(std::max(s.q, 1e-9)) : s.q;
-    x[3] = std::log2(std::max(s.slope, 1e-9));
+    // q = 0 (the alignment's own) never glides to a q > 0 (sectionsKeepStructure).
+    x[2] = s.q > 0.0 ? std::log2(s.q) : 0.0;
+    x[3] = s.slope > 0.0 ? std::log2(s.slope) : 0.0;
 }
 
-StageSpec SettingsPath::settings(const StageSpec& like, const double x[4], bool logQ) noexcept
-{
-    StageSpec s = like;
-    s.freqHz = std::exp2(x[0]);
-    s.gainDb = x[1];
-    s.q = logQ ? std::exp2(x[2]) : x[2];
-    s.slope = std::exp2(x[3]);
-    return s;
-}
-
-SettingsPath::SettingsPath(const StageSpec& a, const StageSpec& b, const double velocity[4],
+SettingsPath::SettingsPath(const double a[4], const double b[4], const double velocity[4],
                            double span) noexcept
 {
-    // q = 0 (the alignment's own) never glides to a q > 0 (sectionsCanGlide), so q moves
-    // in octaves unless it stays 0.
-    logQ = a.q > 0.0 && b.q > 0.0;
     bendSpan = std::clamp(span, 1e-3, 1.0);
     invBendSpan = 1.0 / bendSpan;
-    double xb[4];
-    coordinates(a, logQ, base);
-    coordinates(b, logQ, xb);
     for (int i = 0; i < 4; ++i)
     {
-        step[i] = xb[i] - base[i];
-        bend[i] = logQ || i != 2 ? velocity[i] : 0.0;
+        base[i] = a[i];
+        step[i] = b[i] - a[i];
+        bend[i] = velocity[i];
     }
 }
 

@@ -199,26 +199,27 @@ bool sectionsCanGlide(const StageSpec& a, const StageSpec& b) noexcept;
 struct SettingsPath
 {
     double base[4] = {}, step[4] = {}, bend[4] = {};
-    bool logQ = true;
     double bendSpan = 1.0, invBendSpan = 1.0;
 
     SettingsPath() = default;
-    /// From settings a (moving at `velocity` per unit t in these coordinates) to b, the bend
-    /// spent over the first `span` of the glide (as GlidePath).
-    SettingsPath(const StageSpec& a, const StageSpec& b, const double velocity[4],
+    /// From coordinates a (moving at `velocity` per unit t) to b, the bend spent over the
+    /// first `span` of the glide (as GlidePath).
+    SettingsPath(const double a[4], const double b[4], const double velocity[4],
                  double span) noexcept;
     /// The coordinates, their rates d/dt and (if `rate2` is given) d2/dt2 at time fraction t.
     void at(double t, double x[4], double rate[4], double* rate2 = nullptr) const noexcept;
-    /// The coordinates of settings s (q as logQ says).
-    static void coordinates(const StageSpec& s, bool logQ, double x[4]) noexcept;
-    /// Settings `like` with frequency, gain, q and slope from coordinates x.
-    static StageSpec settings(const StageSpec& like, const double x[4], bool logQ) noexcept;
+    /// The coordinates of settings s.
+    static void coordinates(const StageSpec& s, double x[4]) noexcept;
 };
 
-/// sectionsCanGlide from settings a that move on: `reach` is, in SettingsPath's
-/// coordinates, the further move that would demand as much of the glide as the jump in
-/// acceleration where it takes over (Chain.cpp, retarget); the move plus that must stay
-/// within the glide limits.
-bool sectionsCanGlide(const StageSpec& a, const StageSpec& b, const double reach[4]) noexcept;
+/// Whether a section stage keeps what a glide cannot change (sectionsCanGlide without the
+/// limits on the move).
+bool sectionsKeepStructure(const StageSpec& a, const StageSpec& b) noexcept;
+
+/// The limits of sectionsCanGlide on a move between SettingsPath coordinates a and b:
+/// `reach` is, in the same coordinates, the further move that would demand as much of the
+/// glide as the jump in acceleration where it takes over a running one (Chain.cpp,
+/// retarget); the move plus that must stay within the limits.
+bool glideMoveWithin(const double a[4], const double b[4], const double reach[4]) noexcept;
 
 } // namespace kerf::dsp
