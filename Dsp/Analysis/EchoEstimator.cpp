@@ -214,13 +214,12 @@ PathTaps pathFor(double delaySamples, int order)
 }
 
 /// s[t] -= sum_i c[i] src[t - i] for t in [t0, t1): one path of the model filter over a block
-/// whose sources all lie in the past. Taps as a constant, so that the compiler unrolls them
-/// and vectorises over t; a clone for AVX2/FMA CPUs, chosen at load time (GCC function
-/// multiversioning).
-template <int Taps>
-__attribute__((target_clones("arch=haswell", "default"), optimize("fp-contract=fast"))) void
-firSubtract(float* __restrict s, const float* __restrict src, const float* c, std::size_t t0,
-            std::size_t t1) noexcept
+/// whose sources all lie in the past. Taps as a constant, so that the compiler unrolls them and
+/// vectorises over t; with fused multiply-adds in the AVX2/FMA variant.
+template <int Taps, bool Fused>
+inline __attribute__((always_inline)) void
+firSubtractBody(float* __restrict s, const float* __restrict src, const float* c, std::size_t t0,
+                std::size_t t1) noexcept
 {
     float k[Taps];
     for (int i = 0; i < Taps; ++i)
@@ -229,24 +228,47 @@ firSubtract(float* __restrict s, const float* __restrict src, const float* c, st
     {
         float acc = s[t];
         for (int i = 0; i < Taps; ++i)
-            acc -= k[i] * src[t - static_cast<std::size_t>(i)];
+        {
+            if constexpr (Fused)
+                acc = std::fma(-k[i], src[t - static_cast<std::size_t>(i)], acc);
+            else
+                acc -= k[i] * src[t - static_cast<std::size_t>(i)];
+        }
         s[t] = acc;
     }
 }
 
+#define KERF_FIR_VARIANTS(TAPS)                                                                    \
+    void firSubtract##TAPS(float* __restrict s, const float* __restrict src, const float* c,       \
+                           std::size_t t0, std::size_t t1) noexcept                                \
+    {                                                                                              \
+        firSubtractBody<TAPS, false>(s, src, c, t0, t1);                                           \
+    }                                                                                              \
+    __attribute__((target("avx2,fma"))) void firSubtract##TAPS##Fma(                               \
+        float* __restrict s, const float* __restrict src, const float* c, std::size_t t0,          \
+        std::size_t t1) noexcept                                                                   \
+    {                                                                                              \
+        firSubtractBody<TAPS, true>(s, src, c, t0, t1);                                            \
+    }
+KERF_FIR_VARIANTS(8)
+KERF_FIR_VARIANTS(6)
+KERF_FIR_VARIANTS(4)
+#undef KERF_FIR_VARIANTS
+
 void firSubtractAny(float* s, const float* src, const float* c, int taps, std::size_t t0,
                     std::size_t t1) noexcept
 {
+    static const bool fma = __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma");
     switch (taps)
     {
     case 8:
-        firSubtract<8>(s, src, c, t0, t1);
+        (fma ? firSubtract8Fma : firSubtract8)(s, src, c, t0, t1);
         return;
     case 6:
-        firSubtract<6>(s, src, c, t0, t1);
+        (fma ? firSubtract6Fma : firSubtract6)(s, src, c, t0, t1);
         return;
     case 4:
-        firSubtract<4>(s, src, c, t0, t1);
+        (fma ? firSubtract4Fma : firSubtract4)(s, src, c, t0, t1);
         return;
     default:
         for (std::size_t t = t0; t < t1; ++t)
