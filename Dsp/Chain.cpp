@@ -611,11 +611,9 @@ void ChainProcessor::update() noexcept
         }
         bool gliding = false;
         // The live sections, and while a crossfade runs the outgoing ones, which glide on.
-        for (const Voice* voice : {&st.live, &st.out})
+        auto glideOn = [&](const Voice& voice)
         {
-            if (voice->kind != Voice::Kind::sections || (voice == &st.out && !st.fading))
-                continue;
-            for (int idx = voice->first; idx < voice->first + voice->count; ++idx)
+            for (int idx = voice.first; idx < voice.first + voice.count; ++idx)
             {
                 const auto u = static_cast<std::size_t>(idx);
                 Glide& g = glides[u];
@@ -655,7 +653,11 @@ void ChainProcessor::update() noexcept
                 }
                 ramping[u] = true;
             }
-        }
+        };
+        if (st.live.kind == Voice::Kind::sections)
+            glideOn(st.live);
+        if (st.fading && st.out.kind == Voice::Kind::sections)
+            glideOn(st.out);
         if (st.fading || st.queued || gliding)
             ++movingStages;
         everyUpdate = everyUpdate || st.fading || st.queued;
