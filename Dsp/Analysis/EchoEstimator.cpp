@@ -75,40 +75,50 @@ struct FftPlans
     fftw_plan c2r = nullptr;
 };
 
-FftPlans plansFor(int n)
+/// The plan of size n from a per-type cache, made by make(n) under the planner lock the first
+/// time.
+template <typename Plan, typename Make> Plan cachedPlan(int n, Make make)
 {
     std::lock_guard<std::mutex> lock(fftwPlannerMutex());
-    static std::map<int, FftPlans> cache;
+    static std::map<int, Plan> cache;
     auto it = cache.find(n);
-    if (it != cache.end())
-        return it->second;
-    double* in = fftw_alloc_real(static_cast<std::size_t>(n));
-    fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(n / 2 + 1));
-    FftPlans p;
-    p.r2c = fftw_plan_dft_r2c_1d(n, in, out, FFTW_ESTIMATE);
-    p.c2r = fftw_plan_dft_c2r_1d(n, out, in, FFTW_ESTIMATE);
-    fftw_free(in);
-    fftw_free(out);
-    cache.emplace(n, p);
-    return p;
+    if (it == cache.end())
+        it = cache.emplace(n, make(n)).first;
+    return it->second;
+}
+
+FftPlans plansFor(int n)
+{
+    return cachedPlan<FftPlans>(n,
+                                [](int size)
+                                {
+                                    double* in = fftw_alloc_real(static_cast<std::size_t>(size));
+                                    fftw_complex* out =
+                                        fftw_alloc_complex(static_cast<std::size_t>(size / 2 + 1));
+                                    FftPlans p;
+                                    p.r2c = fftw_plan_dft_r2c_1d(size, in, out, FFTW_ESTIMATE);
+                                    p.c2r = fftw_plan_dft_c2r_1d(size, out, in, FFTW_ESTIMATE);
+                                    fftw_free(in);
+                                    fftw_free(out);
+                                    return p;
+                                });
 }
 
 /// Single-precision forward plan of size n (the frame statistics: ample for log spectra, and
 /// about twice as fast as double).
 fftwf_plan floatPlanFor(int n)
 {
-    std::lock_guard<std::mutex> lock(fftwPlannerMutex());
-    static std::map<int, fftwf_plan> cache;
-    auto it = cache.find(n);
-    if (it != cache.end())
-        return it->second;
-    float* in = fftwf_alloc_real(static_cast<std::size_t>(n));
-    fftwf_complex* out = fftwf_alloc_complex(static_cast<std::size_t>(n / 2 + 1));
-    fftwf_plan p = fftwf_plan_dft_r2c_1d(n, in, out, FFTW_ESTIMATE);
-    fftwf_free(in);
-    fftwf_free(out);
-    cache.emplace(n, p);
-    return p;
+    return cachedPlan<fftwf_plan>(
+        n,
+        [](int size)
+        {
+            float* in = fftwf_alloc_real(static_cast<std::size_t>(size));
+            fftwf_complex* out = fftwf_alloc_complex(static_cast<std::size_t>(size / 2 + 1));
+            fftwf_plan p = fftwf_plan_dft_r2c_1d(size, in, out, FFTW_ESTIMATE);
+            fftwf_free(in);
+            fftwf_free(out);
+            return p;
+        });
 }
 
 /// An fftw_malloc'd array (same alignment as the planning arrays, for fftw_execute_dft_*).
@@ -787,15 +797,28 @@ Whitened weightedWhitening(const std::vector<float>& x, int lifterLags, Weightin
     return result;
 }
 
-/// The excerpt with `model` cancelled by the stage itself (exact inverse, Lagrange of `order`).
-std::vector<float> cancelledExcerpt(const std::vector<float>& excerpt,
-                                    const std::vector<Refl>& model, double sampleRateHz, int order)
+/// The echo stage's settings for a model (exact inverse, Lagrange of `order`).
+EchoCancelSettings settingsFor(const std::vector<Refl>& model, double sampleRateHz, int order)
 {
     EchoCancelSettings s;
     for (const auto& m : model)
         s.reflections[static_cast<std::size_t>(s.numReflections++)] = {
             m.delaySamples * 1e3 / sampleRateHz, m.gain};
     s.interpolationOrder = order;
+    return s;
+}
+
+/// True when the model's exact inverse is stable (the stage's Schur-Cohn test).
+bool modelIsStable(const std::vector<Refl>& model, double sampleRateHz, int order)
+{
+    return checkEchoStability(settingsFor(model, sampleRateHz, order), sampleRateHz).stable;
+}
+
+/// The excerpt with `model` cancelled by the stage itself (exact inverse, Lagrange of `order`).
+std::vector<float> cancelledExcerpt(const std::vector<float>& excerpt,
+                                    const std::vector<Refl>& model, double sampleRateHz, int order)
+{
+    const EchoCancelSettings s = settingsFor(model, sampleRateHz, order);
     EchoCanceller c;
     c.prepare(sampleRateHz, 4096, 1);
     c.setSettings(s);
@@ -819,12 +842,7 @@ std::vector<double> noiseFloorAfterCancelling(const std::vector<float>& excerpt,
                                               const std::vector<Refl>& model, double sampleRateHz,
                                               int order)
 {
-    EchoCancelSettings check;
-    for (const auto& m : model)
-        check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
-            m.delaySamples * 1e3 / sampleRateHz, m.gain};
-    check.interpolationOrder = order;
-    if (model.empty() || !checkEchoStability(check, sampleRateHz).stable)
+    if (model.empty() || !modelIsStable(model, sampleRateHz, order))
         return {};
     const std::vector<float> z = cancelledExcerpt(excerpt, model, sampleRateHz, order);
     const int F = kWeightFrame;
@@ -1398,20 +1416,8 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
         else
         {
             // Cancel what is known, then look again (the strongest's rahmonics are gone).
-            EchoCancelSettings s;
-            for (const auto& m : model)
-                s.reflections[static_cast<std::size_t>(s.numReflections++)] = {
-                    m.delaySamples * 1e3 / sampleRateHz, m.gain};
-            s.interpolationOrder = order;
-            EchoCanceller c;
-            c.prepare(sampleRateHz, 4096, 1);
-            c.setSettings(s);
-            std::vector<float> cancelled = excerpt;
-            for (std::size_t off = 0; off < len; off += 4096)
-            {
-                float* ch[1] = {cancelled.data() + off};
-                c.process(ch, 1, static_cast<int>(std::min<std::size_t>(4096, len - off)));
-            }
+            const std::vector<float> cancelled =
+                cancelledExcerpt(excerpt, model, sampleRateHz, order);
             logSpec = spectralStats(cancelled.data(), len, F, kDropQuiet).meanLog;
             lastCancelled = logSpec;
             lastModel = model;
@@ -1509,14 +1515,9 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
     {
         refineAll(fit, model, minD, maxD, 8, 0);
         confidences = refineRobust(fit, model, minD, maxD, 3);
-        EchoCancelSettings check;
-        for (const auto& m : model)
-            check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
-                m.delaySamples * 1e3 / sampleRateHz, m.gain};
-        check.interpolationOrder = order;
         // An unusable (unstable) model loses its least consistent reflection.
         const double bar =
-            checkEchoStability(check, sampleRateHz).stable ? opt.confidenceThreshold : INFINITY;
+            modelIsStable(model, sampleRateHz, order) ? opt.confidenceThreshold : INFINITY;
         std::size_t worst = model.size();
         double worstScore = INFINITY;
         for (std::size_t k = 0; k < model.size(); ++k)
@@ -1577,12 +1578,7 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             std::vector<Refl> refined = model;
             refineAll(fine, refined, minD, maxD, 8, longCount);
             const std::vector<double> c = refineRobust(fine, refined, minD, maxD, 2, longCount);
-            EchoCancelSettings check;
-            for (const auto& m : refined)
-                check.reflections[static_cast<std::size_t>(check.numReflections++)] = {
-                    m.delaySamples * 1e3 / sampleRateHz, m.gain};
-            check.interpolationOrder = order;
-            if (c.size() == refined.size() && checkEchoStability(check, sampleRateHz).stable)
+            if (c.size() == refined.size() && modelIsStable(refined, sampleRateHz, order))
             {
                 model = refined;
                 for (std::size_t k = longCount; k < model.size(); ++k)
