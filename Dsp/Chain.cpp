@@ -897,41 +897,40 @@ void stretchKernelCubic(const StretchSection* sections, int count, double* l, do
 }
 
 #if defined(__x86_64__) && defined(__GNUC__)
-/// The same kernels with fused multiply-adds, for processors that have them (chosen once at
-/// run time; every such processor also has AVX, which the pair kernel uses). FMA rounds once
-/// where the plain kernel rounds twice, so results differ in the last bits between
-/// machines, never within one.
-__attribute__((target("avx,fma"))) void stretchKernelFma(const StretchSection* sections, int count,
-                                                         double* l, double* r, int len,
-                                                         __m128d* carry) noexcept
+/// On processors with fused multiply-adds (chosen once at run time; every such processor
+/// also has AVX) sections run two at a time, still or gliding, in the pair kernel below. FMA
+/// rounds once where the plain kernel rounds twice, so results differ in the last bits
+/// between machines, never within one.
+///
+/// The pair kernel. The skewed order (section j works on sample t - j at step t) makes
+/// adjacent sections independent, so a pair shares one 256-bit register: lanes [left of j,
+/// left of j+1, right of j, right of j+1]. Gliding, the pair's cubics are laid out in three
+/// groups of four ({a1_j, a1_j+1, a2_j, a2_j+1}, ...), so three Horner evaluations at
+/// [n_j, n_j+1, n_j, n_j+1] give all twelve values (Moving); still, the groups hold the
+/// values themselves. A 128-bit lane copy gives each coefficient in all four lanes. At the
+/// ends of the block a pair may have one section working and one idle (not yet started or
+/// finished): its memories are kept as they were. An odd stretch ends with an identity
+/// section. Each pair's `at` gives its lanes' sample index at step 0 (the samples since each
+/// cubic's start, less the section's skew). Still and gliding sections do the same
+/// arithmetic, so a section's output does not depend on which of the two runs it.
+template <bool Moving>
+__attribute__((target("avx,fma"), always_inline)) inline void
+pairKernelBody(GlidePair* w, int pairs, double* l, double* r, int len) noexcept
 {
-    KERF_STRETCH_BODY(_mm_fmadd_pd, KERF_PAIR_COEF, KERF_NO_PREPARE)
-}
-
-/// Gliding sections two at a time. The skewed order (section j works on sample t - j at
-/// step t) makes adjacent sections independent, so a pair shares one 256-bit register:
-/// lanes [left of j, left of j+1, right of j, right of j+1]. The pair's cubics are laid out
-/// in three groups of four ({a1_j, a1_j+1, a2_j, a2_j+1}, ...), so three Horner evaluations
-/// at [n_j, n_j+1, n_j, n_j+1] give all twelve values and a 128-bit lane copy gives each
-/// coefficient in all four lanes. At the ends of the block a pair may have one section
-/// working and one idle (not yet started or finished): its memories are kept as they were.
-/// cl[j], cr[j] hold the sample waiting to enter section j; an odd stretch ends with an
-/// identity section. Each pair's `at` gives its lanes' sample index at step 0 (the samples
-/// since each cubic's start, less the section's skew).
-__attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
-                                                           double* r, int len, double* cl,
-                                                           double* cr) noexcept
-{
+    // y[p + 1]: the last outputs of pair p, lanes as the pair's; y[0] holds the next input
+    // sample in the lanes of a section "-1" (1 and 3). Pair p's input is lane 1 and 3 of
+    // y[p] (section 2p - 1) and lanes 0 and 2 of y[p + 1] (section 2p): one in-lane shuffle
+    // of two whole-register loads, each from one whole-register store (handing samples on
+    // through a double array with 128-bit stores across pairs made every load wait for two
+    // stores, the CPU being unable to forward them).
     const int last = 2 * pairs - 1;
-    for (int j = 0; j <= 2 * pairs; ++j)
-        cl[j] = cr[j] = 0.0;
+    __m256d y[ChainProcessor::kMaxSections / 2 + 2];
+    for (int p = 0; p <= pairs; ++p)
+        y[p] = _mm256_setzero_pd();
     for (int t = 0; t < len + last; ++t)
     {
         if (t < len)
-        {
-            cl[0] = l[t];
-            cr[0] = r[t];
-        }
+            y[0] = _mm256_set_pd(r[t], 0.0, l[t], 0.0);
         const int pHigh = std::min(pairs - 1, t >> 1);
         const int pLow = t - len <= 0 ? 0 : (t - len + 1) >> 1;
         // Sample index of sections 2p and 2p + 1 in their segments: n0 + t - 2p (- 1).
@@ -939,25 +938,30 @@ __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pai
         for (int p = pHigh; p >= pLow; --p)
         {
             GlidePair& g = w[p];
-            const __m256d nv = _mm256_add_pd(tv, _mm256_load_pd(g.at));
             __m256d grp[3];
-            for (int k = 0; k < 3; ++k)
+            if constexpr (Moving)
             {
-                __m256d q = _mm256_load_pd(g.q[3] + 4 * k);
-                q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[2] + 4 * k));
-                q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[1] + 4 * k));
-                grp[k] = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[0] + 4 * k));
+                const __m256d nv = _mm256_add_pd(tv, _mm256_load_pd(g.at));
+                for (int k = 0; k < 3; ++k)
+                {
+                    __m256d q = _mm256_load_pd(g.q[3] + 4 * k);
+                    q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[2] + 4 * k));
+                    q = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[1] + 4 * k));
+                    grp[k] = _mm256_fmadd_pd(q, nv, _mm256_load_pd(g.q[0] + 4 * k));
+                }
             }
+            else
+                for (int k = 0; k < 3; ++k)
+                    grp[k] = _mm256_load_pd(g.q[0] + 4 * k);
 #define KERF_CF(m) _mm256_permute2f128_pd(grp[(m) / 2], grp[(m) / 2], (m) % 2 ? 0x11 : 0x00)
-            const __m256d x = _mm256_insertf128_pd(_mm256_castpd128_pd256(_mm_load_pd(cl + 2 * p)),
-                                                   _mm_load_pd(cr + 2 * p), 1);
+            const __m256d x = _mm256_shuffle_pd(y[p], y[p + 1], 5);
             const __m256d ic1 = _mm256_load_pd(g.s1), ic2 = _mm256_load_pd(g.s2);
             const __m256d v3 = _mm256_sub_pd(x, ic2);
             const __m256d v1 = _mm256_fmadd_pd(KERF_CF(1), v3, _mm256_mul_pd(KERF_CF(0), ic1));
             const __m256d v2 = _mm256_fmadd_pd(KERF_CF(2), v1, ic2);
             __m256d n1 = _mm256_sub_pd(_mm256_add_pd(v1, v1), ic1);
             __m256d n2 = _mm256_sub_pd(_mm256_add_pd(v2, v2), ic2);
-            const __m256d y = _mm256_fmadd_pd(
+            const __m256d out = _mm256_fmadd_pd(
                 KERF_CF(5), v2, _mm256_fmadd_pd(KERF_CF(4), v1, _mm256_mul_pd(KERF_CF(3), x)));
 #undef KERF_CF
             const bool lo = 2 * p > t - len; // section 2p works on a sample of this block
@@ -970,18 +974,32 @@ __attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pai
             }
             _mm256_store_pd(g.s1, n1);
             _mm256_store_pd(g.s2, n2);
-            // Outputs of sections 2p and 2p + 1 wait for sections 2p + 1 and 2p + 2 (an idle
-            // lane writes where nobody reads before it is written again).
-            _mm_storeu_pd(cl + 2 * p + 1, _mm256_castpd256_pd128(y));
-            _mm_storeu_pd(cr + 2 * p + 1, _mm256_extractf128_pd(y, 1));
+            // Outputs of sections 2p and 2p + 1 wait for sections 2p + 1 and 2p + 2 (pairs
+            // run downwards, so pair p + 1 has read them; an idle lane's output reaches only
+            // lanes that are idle too).
+            y[p + 1] = out;
         }
         const int n = t - last;
         if (n >= 0)
         {
-            l[n] = cl[2 * pairs];
-            r[n] = cr[2 * pairs];
+            alignas(32) double o[4];
+            _mm256_store_pd(o, y[pairs]);
+            l[n] = o[1];
+            r[n] = o[3];
         }
     }
+}
+
+__attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
+                                                           double* r, int len) noexcept
+{
+    pairKernelBody<true>(w, pairs, l, r, len);
+}
+
+__attribute__((target("avx,fma"))) void pairStillKernelFma(GlidePair* w, int pairs, double* l,
+                                                           double* r, int len) noexcept
+{
+    pairKernelBody<false>(w, pairs, l, r, len);
 }
 #endif
 #undef KERF_STRETCH_BODY
@@ -1013,8 +1031,8 @@ void ChainProcessor::allowFusedMultiplyAdd(bool allowed) noexcept
 }
 
 #if defined(__x86_64__) && defined(__GNUC__)
-void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l, double* r,
-                                   int len) noexcept
+void ChainProcessor::runSectionPairs(const void* sectionList, int count, double* l, double* r,
+                                     int len, bool moving) noexcept
 {
     // Lay the stretch out pair by pair, run the pair kernel, put the memories back.
     static_assert(sizeof(GlidePair) == sizeof(GlidePairRoom));
@@ -1032,16 +1050,29 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         const double* a = list[j].coeffs;
         const double* b = second ? list[j + 1].coeffs : identity;
         // Group G of power o: {c_2G of j, of j + 1, c_2G+1 of j, of j + 1}.
-        for (int o = 0; o < 4; ++o)
+        if (moving)
+            for (int o = 0; o < 4; ++o)
+                for (int grp = 0; grp < 3; ++grp)
+                {
+                    const __m128d x = _mm_load_pd(a + 8 * o + 2 * grp);
+                    const __m128d y = _mm_load_pd(b + 8 * o + 2 * grp);
+                    _mm_store_pd(g.q[o] + 4 * grp, _mm_unpacklo_pd(x, y));
+                    _mm_store_pd(g.q[o] + 4 * grp + 2, _mm_unpackhi_pd(x, y));
+                }
+        else
+            // Still: PairCoeffs (each value twice, value m at 2 m); the identity's values sit
+            // at m (the cubic's layout), so read it as such.
             for (int grp = 0; grp < 3; ++grp)
-            {
-                const __m128d x = _mm_load_pd(a + 8 * o + 2 * grp);
-                const __m128d y = _mm_load_pd(b + 8 * o + 2 * grp);
-                _mm_store_pd(g.q[o] + 4 * grp, _mm_unpacklo_pd(x, y));
-                _mm_store_pd(g.q[o] + 4 * grp + 2, _mm_unpackhi_pd(x, y));
-            }
-        g.at[0] = g.at[2] = list[j].n0 - static_cast<double>(j);
-        g.at[1] = g.at[3] = (second ? list[j + 1].n0 : 0.0) - static_cast<double>(j + 1);
+                for (int h = 0; h < 2; ++h)
+                {
+                    const int m = 2 * grp + h;
+                    g.q[0][4 * grp + 2 * h] = a[2 * m];
+                    g.q[0][4 * grp + 2 * h + 1] = second ? b[2 * m] : identity[m];
+                }
+        if (moving)
+            g.at[0] = g.at[2] = list[j].n0 - static_cast<double>(j);
+        if (moving)
+            g.at[1] = g.at[3] = (second ? list[j + 1].n0 : 0.0) - static_cast<double>(j + 1);
         // Memories: ic1 = {left, right} of each section -> {left j, left j+1, right j, ...}.
         const double* sa = list[j].state;
         const double* sb = second ? list[j + 1].state : rest;
@@ -1052,8 +1083,10 @@ void ChainProcessor::runGlidePairs(const void* sectionList, int count, double* l
         _mm_store_pd(g.s2, _mm_unpacklo_pd(a2, b2));
         _mm_store_pd(g.s2 + 2, _mm_unpackhi_pd(a2, b2));
     }
-    alignas(32) double cl[kMaxSections + 2], cr[kMaxSections + 2];
-    pairCubicKernelFma(w, pairs, l, r, len, cl, cr);
+    if (moving)
+        pairCubicKernelFma(w, pairs, l, r, len);
+    else
+        pairStillKernelFma(w, pairs, l, r, len);
     for (int p = 0; p < pairs; ++p)
     {
         const GlidePair& g = w[p];
@@ -1112,10 +1145,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
 #if defined(__x86_64__) && defined(__GNUC__)
     if (hasFma())
     {
-        if (ramp)
-            runGlidePairs(list.data(), count, l, r, len);
-        else
-            stretchKernelFma(list.data(), count, l, r, len, carry);
+        runSectionPairs(list.data(), count, l, r, len, ramp);
         return;
     }
 #endif

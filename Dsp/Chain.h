@@ -308,14 +308,15 @@ private:
     // anything else moves (a crossfade, a queued change) or a target waits.
     long long nextKnot = 0;
     bool everyUpdate = false; // a crossfade or queued change: update at every update point
-    // Working room of the pair kernel (Chain.cpp, runGlidePairs): two gliding sections per
-    // 480-byte entry, laid out for one 256-bit register.
+    // Working room of the pair kernel (Chain.cpp, runSectionPairs): two sections (still or
+    // gliding) per 480-byte entry, laid out for one 256-bit register.
     struct alignas(32) GlidePairRoom
     {
         double v[60];
     };
     std::array<GlidePairRoom, kMaxSections / 2 + 1> glidePairs{};
-    void runGlidePairs(const void* sectionList, int count, double* l, double* r, int len) noexcept;
+    void runSectionPairs(const void* sectionList, int count, double* l, double* r, int len,
+                         bool moving) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
     std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
     std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
