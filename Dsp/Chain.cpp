@@ -130,7 +130,7 @@ void ChainProcessor::prepare(double sampleRateHz, int maxBlockSize, int numChann
     sampleRate = sampleRateHz;
     channelCount = std::clamp(numChannels, 1, kMaxChannels);
     blockSize = std::max(maxBlockSize, 64);
-    scratch.assign(static_cast<std::size_t>(blockSize) * kMaxChannels, 0.0);
+    scratch.assign(scratchStride() * kMaxChannels, 0.0);
     for (auto& e : echoPool)
         e.prepare(sampleRateHz, blockSize, channelCount);
     for (auto& c : combPool)
@@ -1245,7 +1245,7 @@ void ChainProcessor::runFading(int stage, int nch, int len) noexcept
     double* acc[kMaxChannels] = {};
     for (int ch = 0; ch < nch; ++ch)
     {
-        x[ch] = scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
+        x[ch] = channelScratch(ch);
         acc[ch] = accStore[ch];
         for (int n = 0; n < len; ++n)
             acc[ch][n] = x[ch][n];
@@ -1303,8 +1303,7 @@ void ChainProcessor::runBlock(int nch, int len) noexcept
 {
     double* buf[kMaxChannels];
     for (int ch = 0; ch < nch; ++ch)
-        buf[ch] =
-            scratch.data() + static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
+        buf[ch] = channelScratch(ch);
     const bool stereo = nch >= 2;
     auto stretchable = [&](const Stage& s)
     {
@@ -1384,6 +1383,16 @@ bool ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
             ++end;
         if (nch == 2)
             runStereoStretch(i, end, buf[0], buf[1], len);
+        else if (nch == 1 && channelCount == 1)
+        {
+            // Mono: the stereo stretch with silence in the right lane (whose memories no
+            // channel uses when only one is prepared, and which silence leaves at zero), so
+            // that a mono chain also runs its sections side by side instead of waiting on
+            // each section's recursion in turn.
+            double* silent = channelScratch(1);
+            std::fill(silent, silent + len, 0.0);
+            runStereoStretch(i, end, buf[0], silent, len);
+        }
         else
             for (int s = i; s < end; ++s)
                 for (int ch = 0; ch < nch; ++ch)
@@ -1575,8 +1584,7 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
         {
             for (int ch = 0; ch < nch; ++ch)
             {
-                double* b = scratch.data() +
-                            static_cast<std::size_t>(ch) * static_cast<std::size_t>(blockSize);
+                double* b = channelScratch(ch);
                 const Sample* x = channels[ch] + start;
                 for (int n = 0; n < len; ++n)
                     b[n] = static_cast<double>(x[n]);
@@ -1585,8 +1593,7 @@ void ChainProcessor::processImpl(Sample* const* channels, int numChannels, int n
             bool outputFault = false;
             for (int ch = 0; ch < nch; ++ch)
             {
-                const double* b = scratch.data() + static_cast<std::size_t>(ch) *
-                                                       static_cast<std::size_t>(blockSize);
+                const double* b = channelScratch(ch);
                 Sample* x = channels[ch] + start;
                 for (int n = 0; n < len; ++n)
                 {

@@ -43,16 +43,16 @@ void fillNoise(juce::AudioBuffer<float>& b)
             b.setSample(ch, i, u(rng));
 }
 
-void BM_KerfChain24Stereo(benchmark::State& state)
+void kerfChain24(benchmark::State& state, int channels)
 {
     kerf::dsp::ChainProcessor p;
-    p.prepare(kRate, kBlock, 2);
+    p.prepare(kRate, kBlock, channels);
     p.setChain(peakingChain(kerf::dsp::DesignMode::accurate));
-    juce::AudioBuffer<float> buffer(2, kBlock);
+    juce::AudioBuffer<float> buffer(channels, kBlock);
     fillNoise(buffer);
     for (auto _ : state)
     {
-        p.process(buffer.getArrayOfWritePointers(), 2, kBlock);
+        p.process(buffer.getArrayOfWritePointers(), channels, kBlock);
         benchmark::DoNotOptimize(buffer.getReadPointer(0)[0]);
         // Keep the signal bounded and non-denormal between iterations.
         if (std::abs(buffer.getSample(0, 0)) > 10.0f)
@@ -60,7 +60,19 @@ void BM_KerfChain24Stereo(benchmark::State& state)
     }
     state.SetItemsProcessed(state.iterations() * kBlock);
 }
+
+void BM_KerfChain24Stereo(benchmark::State& state)
+{
+    kerfChain24(state, 2);
+}
 BENCHMARK(BM_KerfChain24Stereo);
+
+/// A mono track (a podcast voice): the same sections on one channel.
+void BM_KerfChain24Mono(benchmark::State& state)
+{
+    kerfChain24(state, 1);
+}
+BENCHMARK(BM_KerfChain24Mono);
 
 /// The plain SSE2 kernel, for machines without fused multiply-add.
 void BM_KerfChain24StereoNoFma(benchmark::State& state)
@@ -71,13 +83,14 @@ void BM_KerfChain24StereoNoFma(benchmark::State& state)
 }
 BENCHMARK(BM_KerfChain24StereoNoFma);
 
-void BM_JuceIirChain24Stereo(benchmark::State& state)
+void juceIirChain24(benchmark::State& state, int channels)
 {
     using Filter = juce::dsp::ProcessorDuplicator<juce::dsp::IIR::Filter<float>,
                                                   juce::dsp::IIR::Coefficients<float>>;
     std::vector<std::unique_ptr<Filter>> filters;
     const auto chain = peakingChain(kerf::dsp::DesignMode::bilinear);
-    juce::dsp::ProcessSpec spec{kRate, static_cast<juce::uint32>(kBlock), 2};
+    juce::dsp::ProcessSpec spec{kRate, static_cast<juce::uint32>(kBlock),
+                                static_cast<juce::uint32>(channels)};
     for (int i = 0; i < kSections; ++i)
     {
         const auto& s = chain.stages[static_cast<std::size_t>(i)];
@@ -88,7 +101,7 @@ void BM_JuceIirChain24Stereo(benchmark::State& state)
         f->prepare(spec);
         filters.push_back(std::move(f));
     }
-    juce::AudioBuffer<float> buffer(2, kBlock);
+    juce::AudioBuffer<float> buffer(channels, kBlock);
     fillNoise(buffer);
     juce::dsp::AudioBlock<float> block(buffer);
     for (auto _ : state)
@@ -102,7 +115,18 @@ void BM_JuceIirChain24Stereo(benchmark::State& state)
     }
     state.SetItemsProcessed(state.iterations() * kBlock);
 }
+
+void BM_JuceIirChain24Stereo(benchmark::State& state)
+{
+    juceIirChain24(state, 2);
+}
 BENCHMARK(BM_JuceIirChain24Stereo);
+
+void BM_JuceIirChain24Mono(benchmark::State& state)
+{
+    juceIirChain24(state, 1);
+}
+BENCHMARK(BM_JuceIirChain24Mono);
 
 constexpr int kPoints = 2048;
 

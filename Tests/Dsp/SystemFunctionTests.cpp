@@ -396,6 +396,67 @@ TEST_CASE("skewed stretch processing equals section-by-section processing", "[re
     }
 }
 
+TEST_CASE("a mono chain gives the left channel of the same chain in stereo, bit for bit",
+          "[response]")
+{
+    // Common practice (a channel's result must not depend on its neighbour): mono runs
+    // through the same skewed pair kernel as stereo, with silence in the other lane, so its
+    // output equals the left channel of a stereo run exactly, holding still and gliding (the
+    // chain changes half-way), with and without FMA.
+    const ChainSpec a = everyTypeChain();
+    ChainSpec b = a;
+    for (int i = 0; i < b.numStages; ++i)
+    {
+        auto& st = b.stages[static_cast<std::size_t>(i)];
+        st.freqHz *= 1.3;
+        st.gainDb *= 0.5;
+    }
+    std::vector<double> x(6000), other(6000);
+    for (std::size_t i = 0; i < x.size(); ++i)
+    {
+        x[i] = std::sin(0.013 * static_cast<double>(i * i % 977));
+        other[i] = std::cos(0.071 * static_cast<double>(i % 313));
+    }
+    for (bool fma : {true, false})
+    {
+        ChainProcessor::allowFusedMultiplyAdd(fma);
+        ChainProcessor mono, stereo;
+        mono.prepare(48000.0, 256, 1);
+        stereo.prepare(48000.0, 256, 2);
+        auto m = x, l = x, r = other;
+        bool glided = false;
+        for (int start = 0; start < 6000; start += 256)
+        {
+            if (start == 3072)
+            {
+                mono.setChain(b);
+                stereo.setChain(b);
+            }
+            else if (start == 0)
+            {
+                mono.setChain(a);
+                stereo.setChain(a);
+            }
+            const int len = std::min(256, 6000 - start);
+            double* cm[1] = {m.data() + start};
+            double* cs[2] = {l.data() + start, r.data() + start};
+            mono.process(cm, 1, len);
+            stereo.process(cs, 2, len);
+            glided = glided || (start >= 3072 && mono.isMoving());
+        }
+        INFO("fma " << fma);
+        CHECK(glided);
+        bool moved = false;
+        for (std::size_t i = 0; i < m.size(); ++i)
+        {
+            REQUIRE(m[i] == l[i]);
+            moved = moved || m[i] != x[i];
+        }
+        CHECK(moved);
+    }
+    ChainProcessor::allowFusedMultiplyAdd(true);
+}
+
 TEST_CASE("channel modes: each view's impulse response equals its evaluated path", "[response]")
 {
     // Source: definition of the mid/side transform (M = (L+R)/2, S = (L-R)/2, L = M+S,
