@@ -1070,9 +1070,10 @@ void ChainProcessor::runSectionPairs(const void* sectionList, int count, double*
                     g.q[0][4 * grp + 2 * h + 1] = second ? b[2 * m] : identity[m];
                 }
         if (moving)
+        {
             g.at[0] = g.at[2] = list[j].n0 - static_cast<double>(j);
-        if (moving)
             g.at[1] = g.at[3] = (second ? list[j + 1].n0 : 0.0) - static_cast<double>(j + 1);
+        }
         // Memories: ic1 = {left, right} of each section -> {left j, left j+1, right j, ...}.
         const double* sa = list[j].state;
         const double* sb = second ? list[j + 1].state : rest;
