@@ -293,9 +293,8 @@ ChainProcessor::Voice ChainProcessor::makeVoice(int stage, const StageSpec& spec
         setSectionCoeffs(idx, toSvf(designed.sections[static_cast<std::size_t>(j)]));
         glides[static_cast<std::size_t>(idx)].on = false;
         // A new instance starts from rest.
-        pairState[static_cast<std::size_t>(idx)] = PairState{};
-        for (auto& channel : extraState)
-            channel[static_cast<std::size_t>(idx)].reset();
+        for (auto& pair : pairState)
+            pair[static_cast<std::size_t>(idx)] = PairState{};
     }
     return v;
 }
@@ -754,11 +753,9 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
     for (int j = firstSection; j < firstSection + count; ++j)
     {
         const auto idx = static_cast<std::size_t>(j);
-        SvfState s;
-        if (channel < 2)
-            s = {pairState[idx].ic1[channel], pairState[idx].ic2[channel]};
-        else
-            s = extraState[static_cast<std::size_t>(channel - 2)][idx];
+        PairState& memory = pairState[static_cast<std::size_t>(channel / 2)][idx];
+        const int lane = channel % 2;
+        SvfState s{memory.ic1[lane], memory.ic2[lane]};
         if (!ramping[idx])
         {
             const SvfCoeffs k = coeffs[idx];
@@ -787,13 +784,8 @@ void ChainProcessor::runSections(int channel, int firstSection, int count, doubl
             }
             s = {ic1, ic2};
         }
-        if (channel < 2)
-        {
-            pairState[idx].ic1[channel] = s.ic1eq;
-            pairState[idx].ic2[channel] = s.ic2eq;
-        }
-        else
-            extraState[static_cast<std::size_t>(channel - 2)][idx] = s;
+        memory.ic1[lane] = s.ic1eq;
+        memory.ic2[lane] = s.ic2eq;
     }
 }
 
@@ -1106,7 +1098,8 @@ void ChainProcessor::runSectionPairs(const void* sectionList, int count, double*
 }
 #endif
 
-void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, int len) noexcept
+void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, int len,
+                                      int pair) noexcept
 {
     // Sample by sample through every section of the stretch: consecutive sections are
     // independent at any instant, so their arithmetic overlaps in the CPU's pipeline
@@ -1120,7 +1113,8 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         for (int j = v.first; j < v.first + v.count; ++j)
         {
             const auto u = static_cast<std::size_t>(j);
-            list[static_cast<std::size_t>(count++)] = {pairCoeffs[u].a1, pairState[u].ic1, 0.0};
+            list[static_cast<std::size_t>(count++)] = {
+                pairCoeffs[u].a1, pairState[static_cast<std::size_t>(pair)][u].ic1, 0.0};
             ramp = ramp || ramping[u];
         }
     }
@@ -1382,23 +1376,26 @@ bool ChainProcessor::runUnit(int& i, int nch, int len, double* const* buf,
         int end = i;
         while (end < numStages && stretchable(stages[static_cast<std::size_t>(end)]))
             ++end;
-        if (nch == 2)
-            runStereoStretch(i, end, buf[0], buf[1], len);
-        else if (nch == 1 && channelCount == 1)
+        // Channels two by two through the stereo stretch (memories of channels 2k and
+        // 2k + 1 in pairState[k]). A last channel without a partner takes silence in the
+        // other lane when that lane belongs to no prepared channel (its memories then stay
+        // at zero), so that a mono chain too runs its sections side by side instead of
+        // waiting on each section's recursion in turn; otherwise it runs on its own.
+        for (int c = 0; c < nch; c += 2)
         {
-            // Mono: the stereo stretch with silence in the right lane (whose memories no
-            // channel uses when only one is prepared, and which silence leaves at zero), so
-            // that a mono chain also runs its sections side by side instead of waiting on
-            // each section's recursion in turn.
-            double* silent = channelScratch(1);
-            std::fill(silent, silent + len, 0.0);
-            runStereoStretch(i, end, buf[0], silent, len);
+            if (c + 1 < nch)
+                runStereoStretch(i, end, buf[c], buf[c + 1], len, c / 2);
+            else if (c + 1 >= channelCount)
+            {
+                double* silent = channelScratch(c + 1);
+                std::fill(silent, silent + len, 0.0);
+                runStereoStretch(i, end, buf[c], silent, len, c / 2);
+            }
+            else
+                for (int s = i; s < end; ++s)
+                    runSections(c, stages[static_cast<std::size_t>(s)].live.first,
+                                stages[static_cast<std::size_t>(s)].live.count, buf[c], len);
         }
-        else
-            for (int s = i; s < end; ++s)
-                for (int ch = 0; ch < nch; ++ch)
-                    runSections(ch, stages[static_cast<std::size_t>(s)].live.first,
-                                stages[static_cast<std::size_t>(s)].live.count, buf[ch], len);
         i = end;
         return true;
     }
@@ -1458,9 +1455,8 @@ void ChainProcessor::clearStageMemories(int first, int end) noexcept
         case Voice::Kind::sections:
             for (int j = v.first; j < v.first + v.count; ++j)
             {
-                pairState[static_cast<std::size_t>(j)] = PairState{};
-                for (auto& channel : extraState)
-                    channel[static_cast<std::size_t>(j)].reset();
+                for (auto& pair : pairState)
+                    pair[static_cast<std::size_t>(j)] = PairState{};
             }
             return;
         }
@@ -1530,11 +1526,9 @@ template bool silenceNonFinite<double>(double*, int) noexcept;
 
 void ChainProcessor::clearMemories() noexcept
 {
-    for (auto& s : pairState)
-        s = PairState{};
-    for (auto& channel : extraState)
-        for (auto& s : channel)
-            s.reset();
+    for (auto& pair : pairState)
+        for (auto& s : pair)
+            s = PairState{};
     for (auto& e : echoPool)
         e.reset();
     for (auto& c : combPool)

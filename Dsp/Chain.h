@@ -250,7 +250,7 @@ private:
     void processImpl(Sample* const* channels, int numChannels, int numSamples) noexcept;
     void runBlock(int numChannels, int len) noexcept;
     void runSections(int channel, int firstSection, int count, double* x, int len) noexcept;
-    void runStereoStretch(int first, int end, double* l, double* r, int len) noexcept;
+    void runStereoStretch(int first, int end, double* l, double* r, int len, int pair) noexcept;
     static int slot(int bank, int stage, int j) noexcept
     {
         return bank * kMaxSections + stage * kMaxSectionsPerStage + j;
@@ -318,8 +318,9 @@ private:
     void runSectionPairs(const void* sectionList, int count, double* l, double* r, int len,
                          bool moving) noexcept;
     std::array<Glide, kMaxSectionSlots> glides{};
-    std::array<PairState, kMaxSectionSlots> pairState{}; // channels 0 and 1
-    std::array<std::array<SvfState, kMaxSectionSlots>, kMaxChannels - 2> extraState{}; // 2..7
+    // Section memories of channels 2k and 2k + 1 in pairState[k], lanes as the stereo
+    // kernels use them.
+    std::array<std::array<PairState, kMaxSectionSlots>, kMaxChannels / 2> pairState{};
     std::vector<double> scratch; // kMaxChannels blocks of blockSize, sized in prepare()
     // Channel blocks lie 64 bytes more than a block apart: at a whole number of 4 KiB (512
     // samples) the kernels' loads of one channel waited on stores to the other, the CPU

@@ -12,6 +12,8 @@ PAIRS = [
      "the same without fused multiply-add (plain SSE2 kernel) / JUCE IIR (bar >= 2)"),
     ("BM_KerfChain24Mono", "BM_JuceIirChain24Mono",
      "24 mono peaking sections (a voice track): Kerf throughput / JUCE IIR (no bar)"),
+    ("BM_KerfChain24Six", "BM_JuceIirChain24Six",
+     "24 peaking sections on six channels (a 5.1 bus): Kerf throughput / JUCE IIR (no bar)"),
     ("BM_KerfResponse2048", "BM_JuceMagnitude2048",
      "chain magnitude at 2048 frequencies: Kerf speed / JUCE getMagnitudeForFrequency (bar >= 20)"),
     # The click-free layer: here the "peer" is the gliding case, so the ratio is its cost.

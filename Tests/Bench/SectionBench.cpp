@@ -74,6 +74,13 @@ void BM_KerfChain24Mono(benchmark::State& state)
 }
 BENCHMARK(BM_KerfChain24Mono);
 
+/// A 5.1 bus: the same sections on six channels.
+void BM_KerfChain24Six(benchmark::State& state)
+{
+    kerfChain24(state, 6);
+}
+BENCHMARK(BM_KerfChain24Six);
+
 /// The plain SSE2 kernel, for machines without fused multiply-add.
 void BM_KerfChain24StereoNoFma(benchmark::State& state)
 {
@@ -127,6 +134,12 @@ void BM_JuceIirChain24Mono(benchmark::State& state)
     juceIirChain24(state, 1);
 }
 BENCHMARK(BM_JuceIirChain24Mono);
+
+void BM_JuceIirChain24Six(benchmark::State& state)
+{
+    juceIirChain24(state, 6);
+}
+BENCHMARK(BM_JuceIirChain24Six);
 
 constexpr int kPoints = 2048;
 

@@ -396,13 +396,16 @@ TEST_CASE("skewed stretch processing equals section-by-section processing", "[re
     }
 }
 
-TEST_CASE("a mono chain gives the left channel of the same chain in stereo, bit for bit",
+TEST_CASE("mono and multichannel chains give what a stereo run gives, channel by channel, bit "
+          "for bit",
           "[response]")
 {
-    // Common practice (a channel's result must not depend on its neighbour): mono runs
-    // through the same skewed pair kernel as stereo, with silence in the other lane, so its
-    // output equals the left channel of a stereo run exactly, holding still and gliding (the
-    // chain changes half-way), with and without FMA.
+    // Common practice (a channel's result must not depend on its neighbours): channels run
+    // two by two through the same skewed pair kernel as stereo, a last odd channel with
+    // silence in the other lane, so channel c of a 1-, 3- or 6-channel run fed alternately
+    // with signals x and y equals the left (c even) or right (c odd) channel of a stereo run
+    // fed x and y, exactly: holding still and gliding (the chain changes half-way), with and
+    // without FMA.
     const ChainSpec a = everyTypeChain();
     ChainSpec b = a;
     for (int i = 0; i < b.numStages; ++i)
@@ -417,42 +420,48 @@ TEST_CASE("a mono chain gives the left channel of the same chain in stereo, bit 
         x[i] = std::sin(0.013 * static_cast<double>(i * i % 977));
         other[i] = std::cos(0.071 * static_cast<double>(i % 313));
     }
+    // Runs a processor prepared for nch channels; channel c gets x (c even) or other.
+    const auto run = [&](int nch, bool& glided)
+    {
+        ChainProcessor p;
+        p.prepare(48000.0, 256, nch);
+        std::vector<std::vector<double>> ch(static_cast<std::size_t>(nch));
+        for (int c = 0; c < nch; ++c)
+            ch[static_cast<std::size_t>(c)] = c % 2 ? other : x;
+        glided = false;
+        for (int start = 0; start < 6000; start += 256)
+        {
+            if (start == 0 || start == 3072)
+                p.setChain(start == 0 ? a : b);
+            const int len = std::min(256, 6000 - start);
+            double* ptr[8];
+            for (int c = 0; c < nch; ++c)
+                ptr[c] = ch[static_cast<std::size_t>(c)].data() + start;
+            p.process(ptr, nch, len);
+            glided = glided || (start >= 3072 && p.isMoving());
+        }
+        return ch;
+    };
     for (bool fma : {true, false})
     {
         ChainProcessor::allowFusedMultiplyAdd(fma);
-        ChainProcessor mono, stereo;
-        mono.prepare(48000.0, 256, 1);
-        stereo.prepare(48000.0, 256, 2);
-        auto m = x, l = x, r = other;
         bool glided = false;
-        for (int start = 0; start < 6000; start += 256)
-        {
-            if (start == 3072)
-            {
-                mono.setChain(b);
-                stereo.setChain(b);
-            }
-            else if (start == 0)
-            {
-                mono.setChain(a);
-                stereo.setChain(a);
-            }
-            const int len = std::min(256, 6000 - start);
-            double* cm[1] = {m.data() + start};
-            double* cs[2] = {l.data() + start, r.data() + start};
-            mono.process(cm, 1, len);
-            stereo.process(cs, 2, len);
-            glided = glided || (start >= 3072 && mono.isMoving());
-        }
-        INFO("fma " << fma);
+        const auto stereo = run(2, glided);
         CHECK(glided);
         bool moved = false;
-        for (std::size_t i = 0; i < m.size(); ++i)
-        {
-            REQUIRE(m[i] == l[i]);
-            moved = moved || m[i] != x[i];
-        }
+        for (std::size_t i = 0; i < x.size(); ++i)
+            moved = moved || stereo[0][i] != x[i];
         CHECK(moved);
+        for (int nch : {1, 3, 6})
+        {
+            const auto multi = run(nch, glided);
+            INFO("fma " << fma << ", " << nch << " channels");
+            CHECK(glided);
+            for (int c = 0; c < nch; ++c)
+                for (std::size_t i = 0; i < x.size(); ++i)
+                    REQUIRE(multi[static_cast<std::size_t>(c)][i] ==
+                            stereo[static_cast<std::size_t>(c % 2)][i]);
+        }
     }
     ChainProcessor::allowFusedMultiplyAdd(true);
 }
