@@ -6,13 +6,13 @@ import sys
 
 # (ours, peer, what the bar is)
 PAIRS = [
-    ("BM_KerfChain24Stereo", "BM_JuceIirChain24Stereo",
+    ("kerfChain24/Stereo", "juceIirChain24/Stereo",
      "24 stereo peaking sections, 512-sample blocks: Kerf throughput / JUCE IIR (bar >= 2)"),
-    ("BM_KerfChain24StereoNoFma", "BM_JuceIirChain24Stereo",
+    ("kerfChain24NoFma/Stereo", "juceIirChain24/Stereo",
      "the same without fused multiply-add (plain SSE2 kernel) / JUCE IIR (bar >= 2)"),
-    ("BM_KerfChain24Mono", "BM_JuceIirChain24Mono",
+    ("kerfChain24/Mono", "juceIirChain24/Mono",
      "24 mono peaking sections (a voice track): Kerf throughput / JUCE IIR (no bar)"),
-    ("BM_KerfChain24Six", "BM_JuceIirChain24Six",
+    ("kerfChain24/Six", "juceIirChain24/Six",
      "24 peaking sections on six channels (a 5.1 bus): Kerf throughput / JUCE IIR (no bar)"),
     ("BM_KerfResponse2048", "BM_JuceMagnitude2048",
      "chain magnitude at 2048 frequencies: Kerf speed / JUCE getMagnitudeForFrequency (bar >= 20)"),

@@ -61,34 +61,13 @@ void kerfChain24(benchmark::State& state, int channels)
     state.SetItemsProcessed(state.iterations() * kBlock);
 }
 
-void BM_KerfChain24Stereo(benchmark::State& state)
-{
-    kerfChain24(state, 2);
-}
-BENCHMARK(BM_KerfChain24Stereo);
-
-/// A mono track (a podcast voice): the same sections on one channel.
-void BM_KerfChain24Mono(benchmark::State& state)
-{
-    kerfChain24(state, 1);
-}
-BENCHMARK(BM_KerfChain24Mono);
-
-/// A 5.1 bus: the same sections on six channels.
-void BM_KerfChain24Six(benchmark::State& state)
-{
-    kerfChain24(state, 6);
-}
-BENCHMARK(BM_KerfChain24Six);
-
 /// The plain SSE2 kernel, for machines without fused multiply-add.
-void BM_KerfChain24StereoNoFma(benchmark::State& state)
+void kerfChain24NoFma(benchmark::State& state, int channels)
 {
     kerf::dsp::ChainProcessor::allowFusedMultiplyAdd(false);
-    BM_KerfChain24Stereo(state);
+    kerfChain24(state, channels);
     kerf::dsp::ChainProcessor::allowFusedMultiplyAdd(true);
 }
-BENCHMARK(BM_KerfChain24StereoNoFma);
 
 void juceIirChain24(benchmark::State& state, int channels)
 {
@@ -123,23 +102,14 @@ void juceIirChain24(benchmark::State& state, int channels)
     state.SetItemsProcessed(state.iterations() * kBlock);
 }
 
-void BM_JuceIirChain24Stereo(benchmark::State& state)
-{
-    juceIirChain24(state, 2);
-}
-BENCHMARK(BM_JuceIirChain24Stereo);
-
-void BM_JuceIirChain24Mono(benchmark::State& state)
-{
-    juceIirChain24(state, 1);
-}
-BENCHMARK(BM_JuceIirChain24Mono);
-
-void BM_JuceIirChain24Six(benchmark::State& state)
-{
-    juceIirChain24(state, 6);
-}
-BENCHMARK(BM_JuceIirChain24Six);
+// Stereo, a mono track (a podcast voice) and a 5.1 bus, each beside its JUCE peer.
+BENCHMARK_CAPTURE(kerfChain24, Stereo, 2);
+BENCHMARK_CAPTURE(kerfChain24, Mono, 1);
+BENCHMARK_CAPTURE(kerfChain24, Six, 6);
+BENCHMARK_CAPTURE(kerfChain24NoFma, Stereo, 2);
+BENCHMARK_CAPTURE(juceIirChain24, Stereo, 2);
+BENCHMARK_CAPTURE(juceIirChain24, Mono, 1);
+BENCHMARK_CAPTURE(juceIirChain24, Six, 6);
 
 constexpr int kPoints = 2048;
 
