@@ -35,6 +35,12 @@ constexpr double kDropQuiet = 0.3;
 constexpr double kWeightSnr = 100.0;
 /// Reflections up to this delay get the final noise-compensated refinement, ms.
 constexpr double kFineMaxMs = 25.0;
+/// The final refinement's least-absolute-deviations passes (refineSparse): how many, the
+/// Levenberg-Marquardt iterations in each, and the half-width of the local RMS envelope its
+/// weights follow, ms.
+constexpr int kSparsePasses = 2;
+constexpr int kSparseIterations = 3;
+constexpr double kSparseEnvelopeMs = 0.2;
 /// Length of the excerpt's start that ranks a new candidate's start delays, s.
 constexpr double kInitSeconds = 4.0;
 /// Length of the synthetic noise stretch of the noise compensation, s (Fit::noise).
@@ -302,6 +308,8 @@ struct Fit
     std::size_t initLength = SIZE_MAX; ///< samples the start grid of a new candidate uses
     double activeSamples = 0.0;        ///< of a noise stretch: the samples its energy counts
     std::vector<double> active;        // weight per kMaskBlock block (0: left out)
+    std::vector<float> sampleWeight;   // weight per sample (index t - pad); empty: all 1
+                                       // (run's energy and dot; set by refineSparse)
     int order = 5;
     std::vector<float> z;
     std::vector<std::vector<float>> sens;
@@ -389,11 +397,24 @@ struct Fit
                 }
             }
             double part = 0.0;
-#pragma omp simd reduction(+ : part)
-            for (std::size_t t = t0; t < t1; ++t)
+            if (sampleWeight.empty())
             {
-                const double v = zp[t];
-                part += active[(t - pad) / kMaskBlock] * v * v;
+#pragma omp simd reduction(+ : part)
+                for (std::size_t t = t0; t < t1; ++t)
+                {
+                    const double v = zp[t];
+                    part += active[(t - pad) / kMaskBlock] * v * v;
+                }
+            }
+            else
+            {
+                const float* sw = sampleWeight.data() - pad;
+#pragma omp simd reduction(+ : part)
+                for (std::size_t t = t0; t < t1; ++t)
+                {
+                    const double v = zp[t];
+                    part += active[(t - pad) / kMaskBlock] * sw[t] * v * v;
+                }
             }
             energy += part;
         }
@@ -418,9 +439,19 @@ struct Fit
                 continue;
             const std::size_t e = std::min(n, b0 + kMaskBlock);
             double part = 0.0;
+            if (sampleWeight.empty())
+            {
 #pragma omp simd reduction(+ : part)
-            for (std::size_t t = pad + b0; t < pad + e; ++t)
-                part += static_cast<double>(a[t]) * b[t];
+                for (std::size_t t = pad + b0; t < pad + e; ++t)
+                    part += static_cast<double>(a[t]) * b[t];
+            }
+            else
+            {
+                const float* sw = sampleWeight.data() - pad;
+#pragma omp simd reduction(+ : part)
+                for (std::size_t t = pad + b0; t < pad + e; ++t)
+                    part += static_cast<double>(sw[t]) * a[t] * b[t];
+            }
             acc += wt * part;
         }
         return acc;
@@ -563,6 +594,90 @@ std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD
                 model[k].delaySamples + std::clamp(quantile(dd, 0.5), -1.0, 1.0), minD, maxD);
         }
     return consistency;
+}
+
+/// Least-absolute-deviations refinement by iteratively reweighted least squares (references
+/// from memory: C. L. Lawson, 1961; A. E. Beaton, J. W. Tukey, Technometrics 16(2), 1974; for
+/// deconvolution J. F. Claerbout, F. Muir, "Robust Modeling with Erratic Data", Geophysics
+/// 38(5), 1973): each pass weighs every sample by e0 / max(e[t], e0) and runs the
+/// least-squares refinement with those weights held, where e is the local RMS of the cancelled
+/// output (over 2 envelopeHalf + 1 samples) and e0 its RMS over the active blocks. The weights
+/// are only ever <= 1: quiet stretches count in full, loud ones as their deviation. The whitened
+/// voice is a train of sharp excitation pulses (glottal closures) with quiet stretches between
+/// them, and its shape around each pulse correlates with itself a few milliseconds later; a
+/// least-squares fit counts that correlation in full and reads part of it as echo (measured on
+/// espeak-ng's male voice at 2 ms: gains off by up to 0.048). Weighted towards the absolute
+/// deviation, the fit prefers the model that leaves the pulses sharpest, and the pulses' own shape
+/// pulls it less (at 2 ms: 0.020). The weights follow a local envelope rather than |e[t]| itself,
+/// so that the recording's noise hardly sets its own weight: its energy in the weighted fit is then
+/// the mean weight times its energy in the plain one, which is how the noise compensation is
+/// scaled.
+void refineSparse(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
+                  std::size_t firstFree, int envelopeHalf)
+{
+    const double noiseScale = fit.noiseScale;
+    const std::size_t n = fit.n;
+    const std::size_t h = static_cast<std::size_t>(std::max(0, envelopeHalf));
+    for (int pass = 0; pass < kSparsePasses; ++pass)
+    {
+        fit.sampleWeight.clear();
+        fit.run(model, {}, false, false);
+        const float* z = fit.z.data() + fit.pad;
+        double activeEnergy = 0.0, activeCount = 0.0;
+        for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
+        {
+            if (fit.active[b0 / kMaskBlock] == 0.0)
+                continue;
+            const std::size_t e = std::min(n, b0 + kMaskBlock);
+            double part = 0.0;
+#pragma omp simd reduction(+ : part)
+            for (std::size_t i = b0; i < e; ++i)
+                part += static_cast<double>(z[i]) * z[i];
+            activeEnergy += part;
+            activeCount += static_cast<double>(e - b0);
+        }
+        if (activeEnergy <= 0.0)
+            break;
+        // Local energy over 2h + 1 samples (fewer at the ends) as a running sum, recomputed
+        // from scratch every block so that rounding cannot build up.
+        fit.sampleWeight.resize(n);
+        float* w = fit.sampleWeight.data();
+        const double floor2 = activeEnergy / activeCount;
+        for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
+        {
+            const std::size_t e = std::min(n, b0 + kMaskBlock);
+            double sum = 0.0;
+            const std::size_t lo0 = b0 >= h ? b0 - h : 0;
+            for (std::size_t j = lo0; j < std::min(n, b0 + h + 1); ++j)
+                sum += static_cast<double>(z[j]) * z[j];
+            for (std::size_t i = b0; i < e; ++i)
+            {
+                const std::size_t lo = i >= h ? i - h : 0, hi = std::min(n, i + h + 1);
+                const double local = std::max(sum, 0.0) / static_cast<double>(hi - lo);
+                w[i] = static_cast<float>(std::sqrt(floor2 / std::max(local, floor2)));
+                if (i + h + 1 < n)
+                    sum += static_cast<double>(z[i + h + 1]) * z[i + h + 1];
+                if (i >= h)
+                    sum -= static_cast<double>(z[i - h]) * z[i - h];
+            }
+        }
+        double weightSum = 0.0;
+        for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
+        {
+            if (fit.active[b0 / kMaskBlock] == 0.0)
+                continue;
+            const std::size_t e = std::min(n, b0 + kMaskBlock);
+            double part = 0.0;
+#pragma omp simd reduction(+ : part)
+            for (std::size_t i = b0; i < e; ++i)
+                part += w[i];
+            weightSum += part;
+        }
+        fit.noiseScale = noiseScale * weightSum / activeCount;
+        refineAll(fit, model, minD, maxD, kSparseIterations, firstFree);
+    }
+    fit.sampleWeight.clear();
+    fit.noiseScale = noiseScale;
 }
 
 /// Start for a new reflection: a grid of delays around the cepstral peak, each with a few
@@ -1578,6 +1693,9 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
             std::vector<Refl> refined = model;
             refineAll(fine, refined, minD, maxD, 8, longCount);
             const std::vector<double> c = refineRobust(fine, refined, minD, maxD, 2, longCount);
+            // The confidences stay those of the frames' agreement above.
+            refineSparse(fine, refined, minD, maxD, longCount,
+                         static_cast<int>(std::lround(kSparseEnvelopeMs * 1e-3 * sampleRateHz)));
             if (c.size() == refined.size() && modelIsStable(refined, sampleRateHz, order))
             {
                 model = refined;

@@ -254,16 +254,16 @@ void checkNoEcho(Material material)
 
 } // namespace
 
-// Not yet met on either material (see the issue notes): hidden from the default run with
-// Catch2's "[.]" until the estimator meets them; run them by name or with the tag
-// [estimator-bars]. The bars themselves are unchanged.
 TEST_CASE("one reflection in espeak-ng speech: delay within 1 sample, gain within 0.05, "
           "ERLE >= 20 dB",
-          "[.][echo][estimator-bars]")
+          "[echo]")
 {
     checkOneReflection(Material::espeak);
 }
 
+// Not yet met on the speech-like source (see the issue notes): hidden from the default run
+// with Catch2's "[.]" until the estimator meets them; run them by name or with the tag
+// [estimator-bars]. The bars themselves are unchanged.
 TEST_CASE("one reflection in the speech-like source: delay within 1 sample, gain within 0.05, "
           "ERLE >= 20 dB",
           "[.][echo][estimator-bars]")
