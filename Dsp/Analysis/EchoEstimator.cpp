@@ -696,12 +696,10 @@ void refineSparse(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
     const double noiseScale = fit.noiseScale;
     const std::size_t n = fit.n;
     const std::size_t h = static_cast<std::size_t>(std::max(0, envelopeHalf));
-    for (int pass = 0; pass < kSparsePasses; ++pass)
+    // Sum of v[i] (or v[i]^2) over the samples of the active blocks.
+    const auto activeSum = [&fit, n](const float* v, bool squared)
     {
-        fit.sampleWeight.clear();
-        fit.run(model, {}, false, false);
-        const float* z = fit.z.data() + fit.pad;
-        double activeEnergy = 0.0, activeCount = 0.0;
+        double acc = 0.0;
         for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
         {
             if (fit.active[b0 / kMaskBlock] == 0.0)
@@ -710,10 +708,21 @@ void refineSparse(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
             double part = 0.0;
 #pragma omp simd reduction(+ : part)
             for (std::size_t i = b0; i < e; ++i)
-                part += static_cast<double>(z[i]) * z[i];
-            activeEnergy += part;
-            activeCount += static_cast<double>(e - b0);
+                part += squared ? static_cast<double>(v[i]) * v[i] : static_cast<double>(v[i]);
+            acc += part;
         }
+        return acc;
+    };
+    double activeCount = 0.0;
+    for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
+        if (fit.active[b0 / kMaskBlock] != 0.0)
+            activeCount += static_cast<double>(std::min(n, b0 + kMaskBlock) - b0);
+    for (int pass = 0; pass < kSparsePasses; ++pass)
+    {
+        fit.sampleWeight.clear();
+        fit.run(model, {}, false, false);
+        const float* z = fit.z.data() + fit.pad;
+        const double activeEnergy = activeSum(z, true);
         if (activeEnergy <= 0.0)
             break;
         // Local energy over 2h + 1 samples (fewer at the ends) as a running sum, recomputed
@@ -739,19 +748,7 @@ void refineSparse(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
                     sum -= static_cast<double>(z[i - h]) * z[i - h];
             }
         }
-        double weightSum = 0.0;
-        for (std::size_t b0 = 0; b0 < n; b0 += kMaskBlock)
-        {
-            if (fit.active[b0 / kMaskBlock] == 0.0)
-                continue;
-            const std::size_t e = std::min(n, b0 + kMaskBlock);
-            double part = 0.0;
-#pragma omp simd reduction(+ : part)
-            for (std::size_t i = b0; i < e; ++i)
-                part += w[i];
-            weightSum += part;
-        }
-        fit.noiseScale = noiseScale * weightSum / activeCount;
+        fit.noiseScale = noiseScale * activeSum(w, false) / activeCount;
         refineAll(fit, model, minD, maxD, kSparseIterations, firstFree);
     }
     fit.sampleWeight.clear();
