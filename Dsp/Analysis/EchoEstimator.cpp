@@ -686,7 +686,7 @@ std::vector<double> refineRobust(Fit& fit, std::vector<Refl>& model, double minD
 /// and its shape around each pulse correlates with itself a few milliseconds later; a
 /// least-squares fit counts that correlation in full and reads part of it as echo (measured on
 /// espeak-ng's male voice at 2 ms: gains off by up to 0.048). Reweighted, the fit follows the
-/// stretches between the pulses and the pulses' own shape pulls it less (at 2 ms: 0.021);
+/// stretches between the pulses and the pulses' own shape pulls it less (at 2 ms: 0.020);
 /// loud voiced stretches whose pitch period matches the delay pull it less too (at 7.3 ms and
 /// 70 dB SNR, -0.7 came out -0.55 with weights e0 / e, -0.64 with these). The weights follow
 /// a local envelope rather than |e[t]| itself, so that the recording's noise hardly sets its
