@@ -22,6 +22,11 @@
 //  5. Joint pass: all reflections refined together, then the least consistent one below the
 //     threshold (or any, while the model's exact inverse is unstable) is dropped, until all
 //     pass.
+//  6. Final refinement of the reflections up to 25 ms: the noise floor measured after
+//     cancelling, Wiener-weighted whitening with the noise's own energy compensated, a robust
+//     pass, then two robustly reweighted least-squares passes (see refineSparse in the .cpp);
+//     a reflection that falls below the threshold or minGain here is dropped and the rest
+//     refined again.
 // Runs off the audio thread: allocates. FFTs through FFTW 3 (plans created under a mutex).
 #include "../Stages/EchoCanceller.h"
 
