@@ -757,6 +757,25 @@ void refineSparse(Fit& fit, std::vector<Refl>& model, double minD, double maxD,
     fit.noiseScale = noiseScale;
 }
 
+/// Of reflections first..end, the one that fails the bars worst: a gain under minGain first,
+/// then the lowest confidence under `bar`; model.size() when all pass.
+std::size_t leastPassing(const std::vector<Refl>& model, const std::vector<double>& confidences,
+                         std::size_t first, double bar, double minGain)
+{
+    std::size_t worst = model.size();
+    double worstScore = INFINITY;
+    for (std::size_t k = first; k < model.size(); ++k)
+    {
+        const double score = std::abs(model[k].gain) < minGain ? -1.0 : confidences[k];
+        if (score < bar && score < worstScore)
+        {
+            worstScore = score;
+            worst = k;
+        }
+    }
+    return worst;
+}
+
 /// Start for a new reflection: a grid of delays around the cepstral peak, each with a few
 /// Gauss-Newton steps on its gain alone; returns the best (delay, gain) by output energy.
 Refl initialiseNew(Fit& fit, const std::vector<Refl>& model, Refl start, double minD, double maxD)
@@ -1719,17 +1738,7 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
         // An unusable (unstable) model loses its least consistent reflection.
         const double bar =
             modelIsStable(model, sampleRateHz, order) ? opt.confidenceThreshold : INFINITY;
-        std::size_t worst = model.size();
-        double worstScore = INFINITY;
-        for (std::size_t k = 0; k < model.size(); ++k)
-        {
-            const double score = std::abs(model[k].gain) < opt.minGain ? -1.0 : confidences[k];
-            if (score < bar && score < worstScore)
-            {
-                worstScore = score;
-                worst = k;
-            }
-        }
+        const std::size_t worst = leastPassing(model, confidences, 0, bar, opt.minGain);
         if (worst == model.size())
             break;
         out.strongestRejectedConfidence =
@@ -1798,17 +1807,8 @@ EchoEstimate estimateEchoes(const float* mono, std::size_t n, double sampleRateH
                      static_cast<int>(std::lround(kSparseEnvelopeMs * 1e-3 * sampleRateHz)));
         if (c.size() != refined.size() || !modelIsStable(refined, sampleRateHz, order))
             break; // the joint pass's values stand
-        std::size_t worst = refined.size();
-        double worstScore = INFINITY;
-        for (std::size_t k = longCount; k < refined.size(); ++k)
-        {
-            const double score = std::abs(refined[k].gain) < opt.minGain ? -1.0 : c[k];
-            if (score < opt.confidenceThreshold && score < worstScore)
-            {
-                worstScore = score;
-                worst = k;
-            }
-        }
+        const std::size_t worst =
+            leastPassing(refined, c, longCount, opt.confidenceThreshold, opt.minGain);
         if (worst == refined.size())
         {
             model = refined;
