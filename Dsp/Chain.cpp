@@ -519,6 +519,30 @@ void ChainProcessor::retarget(int stage, const StageSpec& spec, bool allowed) no
     // smoothly (the path is C1 there, not C3): measured (the hand with 12 and 80 ms glides,
     // SmoothingTests): counted once -83.1 dBFS, twice -86.5, about the 12 ms glides' own
     // -86.8 without takeovers.
+    if (allowed && !st.fading && st.live.kind == Voice::Kind::comb && st.spec.enabled &&
+        spec.enabled && spec.type == StageType::comb && !(spec == st.spec))
+    {
+        // A comb that asks for sweeps moves its delay (or pitch) in place; a change of the
+        // sweep choice alone takes effect in place too (the same filter either way).
+        StageSpec same = st.spec;
+        same.comb = spec.comb;
+        CombStage& comb = combPool[static_cast<std::size_t>(st.live.pool)];
+        CombSettings flagOnly = comb.settings();
+        flagOnly.sweepDelay = spec.comb.sweepDelay;
+        if (same == spec && comb.canSweepTo(spec.comb))
+        {
+            comb.sweepTo(spec.comb, transitionSamples(std::max(glideMs_, kMinGlideMs), sampleRate));
+            st.spec = spec;
+            return;
+        }
+        if (same == spec && !comb.sweeping() &&
+            flagOnly == clampCombSettings(spec.comb, sampleRate))
+        {
+            comb.setSettings(spec.comb);
+            st.spec = spec;
+            return;
+        }
+    }
     bool glidable =
         allowed && st.live.kind == Voice::Kind::sections && sectionsKeepStructure(st.spec, spec);
     SettingsMotion motion;
@@ -655,6 +679,17 @@ void ChainProcessor::update() noexcept
         };
         if (st.live.kind == Voice::Kind::sections)
             glideOn(st.live);
+        else if (st.live.kind == Voice::Kind::comb)
+        {
+            // A sweeping delay moves inside the comb, sample by sample; the next update
+            // after its end sees it still.
+            const CombStage& comb = combPool[static_cast<std::size_t>(st.live.pool)];
+            if (comb.sweeping())
+            {
+                gliding = true;
+                nextKnot = std::min(nextKnot, clock + comb.sweepSamplesLeft());
+            }
+        }
         if (st.fading && st.out.kind == Voice::Kind::sections)
             glideOn(st.out);
         if (st.fading || st.queued || gliding)

@@ -50,7 +50,8 @@ inline bool operator==(const CombSettings& a, const CombSettings& b) noexcept
 {
     return a.mode == b.mode && a.delayMs == b.delayMs && a.pitchHz == b.pitchHz &&
            a.gain == b.gain && a.dampingHz == b.dampingHz && a.mix == b.mix &&
-           a.interpolation == b.interpolation && a.interpolationOrder == b.interpolationOrder;
+           a.interpolation == b.interpolation && a.interpolationOrder == b.interpolationOrder &&
+           a.sweepDelay == b.sweepDelay;
 }
 inline bool operator==(const EchoCancelSettings& a, const EchoCancelSettings& b) noexcept
 {

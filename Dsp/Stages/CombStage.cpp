@@ -1,5 +1,7 @@
 #include "CombStage.h"
 
+#include "../Smoothing/Transition.h"
+
 #include <algorithm>
 #include <cmath>
 #include <numbers>
@@ -117,21 +119,86 @@ void CombStage::reset() noexcept
     std::fill(apState_.begin(), apState_.end(), 0.0);
     std::fill(lpState_.begin(), lpState_.end(), 0.0);
     std::fill(writePos_.begin(), writePos_.end(), 0);
+    if (sweeping())
+    {
+        sweepLen_ = 0;
+        sweepPos_ = 0;
+        useLineDelay(lineDelay_);
+    }
 }
 
 void CombStage::setSettings(const CombSettings& in) noexcept
 {
     settings_ = clampCombSettings(in, sampleRateHz_);
-    const DelaySplit d =
-        splitDelay(combLineDelaySamples(settings_, sampleRateHz_), settings_.interpolation,
-                   settings_.interpolationOrder, minWholeFor(settings_.mode));
+    sweepLen_ = 0;
+    sweepPos_ = 0;
+    lineDelay_ = combLineDelaySamples(settings_, sampleRateHz_);
+    useLineDelay(lineDelay_);
+    dampPole_ = dampingPole(settings_.dampingHz, sampleRateHz_);
+}
+
+void CombStage::useLineDelay(double delaySamples) noexcept
+{
+    const DelaySplit d = splitDelay(delaySamples, settings_.interpolation,
+                                    settings_.interpolationOrder, minWholeFor(settings_.mode));
     whole_ = d.wholeSamples;
     taps_ = settings_.interpolationOrder + 1;
     if (settings_.interpolation == DelayInterpolation::thiran)
         thiranCoefficients(d.interpolatorSamples, settings_.interpolationOrder, apA_);
     else
         lagrangeTaps(d.interpolatorSamples, settings_.interpolationOrder, fir_);
-    dampPole_ = dampingPole(settings_.dampingHz, sampleRateHz_);
+}
+
+bool CombStage::canSweepTo(const CombSettings& next) const noexcept
+{
+    const CombSettings n = clampCombSettings(next, sampleRateHz_);
+    const CombSettings& a = settings_;
+    return a.sweepDelay && n.sweepDelay && a.interpolation == DelayInterpolation::lagrange &&
+           n.interpolation == DelayInterpolation::lagrange &&
+           a.interpolationOrder == n.interpolationOrder && a.interpolationOrder % 2 == 1 &&
+           a.mode == n.mode && a.gain == n.gain && a.dampingHz == n.dampingHz && a.mix == n.mix;
+}
+
+void CombStage::sweepAt(long long k, double& logDelay, double& slope) const noexcept
+{
+    const double len = static_cast<double>(sweepLen_);
+    const double t = static_cast<double>(k) / len;
+    logDelay = sweepFrom_ + sweepSpan_ * transitionCurve(t) + sweepBend_ * bendCurve(t);
+    slope = (sweepSpan_ * transitionSlope(t) + sweepBend_ * bendSlope(t)) / len;
+}
+
+double CombStage::lineDelayNow() const noexcept
+{
+    if (!sweeping())
+        return lineDelay_;
+    double u = 0.0, du = 0.0;
+    sweepAt(sweepPos_, u, du);
+    return std::clamp(std::exp(u), sweepMin_, sweepMax_);
+}
+
+void CombStage::sweepTo(const CombSettings& next, int lengthSamples) noexcept
+{
+    if (lengthSamples <= 0)
+    {
+        setSettings(next);
+        return;
+    }
+    // Where the delay is and how fast its log moves (per sample).
+    double from = 0.0, slope = 0.0;
+    if (sweeping())
+        sweepAt(sweepPos_, from, slope);
+    else
+        from = std::log(lineDelay_);
+    settings_ = clampCombSettings(next, sampleRateHz_);
+    lineDelay_ = combLineDelaySamples(settings_, sampleRateHz_);
+    sweepFrom_ = from;
+    sweepSpan_ = std::log(lineDelay_) - from;
+    sweepBend_ = slope * static_cast<double>(lengthSamples); // B'(0) = 1 per unit of t
+    sweepLen_ = lengthSamples;
+    sweepPos_ = 0;
+    sweepMin_ = minimumDelaySamples(settings_.interpolation, settings_.interpolationOrder,
+                                    minWholeFor(settings_.mode));
+    sweepMax_ = kCombMaxDelayMs * 1e-3 * sampleRateHz_;
 }
 
 double CombStage::processSample(int channel, double x) noexcept
@@ -179,21 +246,41 @@ double CombStage::processSample(int channel, double x) noexcept
     return (1.0 - settings_.mix) * x + settings_.mix * y;
 }
 
-void CombStage::process(double* const* channels, int numChannels, int n) noexcept
+template <typename Sample>
+void CombStage::processAny(Sample* const* channels, int numChannels, int n) noexcept
 {
     const int nc = std::min(numChannels, channels_);
+    int i = 0;
+    // A sweep moves the delay sample by sample, the same for every channel.
+    for (; i < n && sweeping(); ++i)
+    {
+        double u = 0.0, du = 0.0;
+        sweepAt(sweepPos_, u, du);
+        useLineDelay(std::clamp(std::exp(u), sweepMin_, sweepMax_));
+        for (int c = 0; c < nc; ++c)
+            channels[c][i] =
+                static_cast<Sample>(processSample(c, static_cast<double>(channels[c][i])));
+        if (++sweepPos_ >= sweepLen_)
+        {
+            sweepLen_ = 0; // arrived: exactly the target's delay from here on
+            sweepPos_ = 0;
+            useLineDelay(lineDelay_);
+        }
+    }
     for (int c = 0; c < nc; ++c)
-        for (int i = 0; i < n; ++i)
-            channels[c][i] = processSample(c, channels[c][i]);
+        for (int k = i; k < n; ++k)
+            channels[c][k] =
+                static_cast<Sample>(processSample(c, static_cast<double>(channels[c][k])));
+}
+
+void CombStage::process(double* const* channels, int numChannels, int n) noexcept
+{
+    processAny(channels, numChannels, n);
 }
 
 void CombStage::process(float* const* channels, int numChannels, int n) noexcept
 {
-    const int nc = std::min(numChannels, channels_);
-    for (int c = 0; c < nc; ++c)
-        for (int i = 0; i < n; ++i)
-            channels[c][i] =
-                static_cast<float>(processSample(c, static_cast<double>(channels[c][i])));
+    processAny(channels, numChannels, n);
 }
 
 } // namespace kerf::dsp

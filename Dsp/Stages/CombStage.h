@@ -41,6 +41,11 @@ struct CombSettings
     double mix = 1.0;       ///< 0 = dry only .. 1 = comb only
     DelayInterpolation interpolation = DelayInterpolation::lagrange;
     int interpolationOrder = 3; ///< Lagrange 1..kMaxLagrangeOrder, Thiran 1..kMaxThiranOrder
+    /// How a running stage takes a new delay (or pitch): false crossfades to it, so nothing
+    /// sweeps in pitch; true sweeps the delay there along a smooth path in log delay (the
+    /// pitch of the combing glides: Doppler on what passes through, on purpose). Sweeps need
+    /// Lagrange interpolation of odd order (CombStage::canSweepTo); otherwise it crossfades.
+    bool sweepDelay = false;
 };
 
 /// The settings with every field in range (what the stage realises).
@@ -79,8 +84,31 @@ public:
     /// The settings in use (after clamping).
     const CombSettings& settings() const noexcept { return settings_; }
 
+    /// True if the stage can sweep from the settings in use to `next` (sweepTo): both ask
+    /// for sweeps, both use Lagrange interpolation of the same odd order (whose tap sets
+    /// meet exactly where the whole-sample part of a moving delay steps, at a whole
+    /// interpolator delay: the output stays continuous), and nothing but the delay or the
+    /// pitch differs.
+    bool canSweepTo(const CombSettings& next) const noexcept;
+    /// Moves the delay line's delay from where it is to next's over lengthSamples (> 0):
+    /// log delay follows the transition curve (Smoothing/Transition.h), and a sweep that
+    /// takes over a running one carries its slope on (the bend term), so the delay and its
+    /// rate of change stay continuous. Call only when canSweepTo(next). Never allocates.
+    void sweepTo(const CombSettings& next, int lengthSamples) noexcept;
+    /// True while a sweep runs.
+    bool sweeping() const noexcept { return sweepLen_ > 0; }
+    /// Samples until the running sweep arrives (0 when none runs).
+    long long sweepSamplesLeft() const noexcept { return sweepLen_ - sweepPos_; }
+    /// The delay line's delay (whole part + interpolator), samples, for the next sample.
+    double lineDelayNow() const noexcept;
+
 private:
     double processSample(int channel, double x) noexcept;
+    template <typename Sample>
+    void processAny(Sample* const* channels, int numChannels, int n) noexcept;
+    void useLineDelay(double delaySamples) noexcept;
+    /// Log delay and its slope per sample at sample k of the running sweep.
+    void sweepAt(long long k, double& logDelay, double& slope) const noexcept;
 
     CombSettings settings_{};
     double sampleRateHz_ = 48000.0;
@@ -96,6 +124,11 @@ private:
     std::vector<double> apState_;            // channels x kMaxThiranOrder (output history)
     std::vector<double> lpState_;            // channels
     std::vector<int> writePos_;
+    double lineDelay_ = 0.0; // delay in use while still
+    // The running sweep: log delay = from + span s(k / len) + bend B(k / len).
+    double sweepFrom_ = 0.0, sweepSpan_ = 0.0, sweepBend_ = 0.0;
+    long long sweepLen_ = 0, sweepPos_ = 0;
+    double sweepMin_ = 0.0, sweepMax_ = 0.0; // the line's limits, samples
 };
 
 } // namespace kerf::dsp

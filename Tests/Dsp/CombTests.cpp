@@ -1,5 +1,6 @@
 // The comb stage: what it does equals its evaluated H; group delay; the feedback limit; a
 // tuned resonance lands on its pitch.
+#include "Chain.h"
 #include "Stages/CombStage.h"
 
 #include <catch2/catch.hpp>
@@ -7,6 +8,7 @@
 #include <cmath>
 #include <complex>
 #include <numbers>
+#include <random>
 #include <vector>
 
 using namespace kerf::dsp;
@@ -155,4 +157,275 @@ TEST_CASE("comb: a tuned resonance peaks at its pitch, damping compensated", "[c
     const double at = std::abs(combResponse(s, fs, w0));
     for (double df : {-2.0, -0.5, 0.5, 2.0})
         CHECK(std::abs(combResponse(s, fs, 2 * kPi * (220.0 + df) / fs)) < at);
+}
+
+// --- Delay sweeps (CombSettings::sweepDelay) ---
+
+namespace
+{
+/// Runs a comb sample by sample on one channel, recording the line delay each sample used.
+struct SweepRun
+{
+    std::vector<double> y, delay;
+};
+
+void stepComb(CombStage& c, const std::vector<double>& x, std::size_t from, std::size_t to,
+              SweepRun& run)
+{
+    for (std::size_t i = from; i < to; ++i)
+    {
+        run.delay[i] = c.lineDelayNow();
+        double v = x[i];
+        double* ch[1] = {&v};
+        c.process(ch, 1, 1);
+        run.y[i] = v;
+    }
+}
+
+CombSettings sweepingComb(double delayMs)
+{
+    CombSettings s;
+    s.mode = CombMode::feedforward;
+    s.delayMs = delayMs;
+    s.gain = 0.5;
+    s.mix = 1.0;
+    s.sweepDelay = true; // Lagrange order 3 (the default)
+    return s;
+}
+} // namespace
+
+TEST_CASE("comb sweep: the output is the input plus the input delayed by the moving delay, and "
+          "the delay follows the transition curve in log delay",
+          "[comb]")
+{
+    const double fs = 48000.0, f = 300.0, a = 0.5;
+    const std::size_t n = 12000, start = 4800;
+    const int len = 960; // 20 ms
+    std::vector<double> x(n);
+    auto sine = [&](double t) { return a * std::sin(2.0 * kPi * f * t / fs); };
+    for (std::size_t i = 0; i < n; ++i)
+        x[i] = sine(static_cast<double>(i));
+    CombStage c;
+    c.prepare(fs, 512, 1);
+    c.setSettings(sweepingComb(2.0));
+    const CombSettings target = sweepingComb(9.0);
+    REQUIRE(c.canSweepTo(target));
+    SweepRun run{std::vector<double>(n), std::vector<double>(n)};
+    stepComb(c, x, 0, start, run);
+    c.sweepTo(target, len);
+    CHECK(c.sweeping());
+    stepComb(c, x, start, n, run);
+    CHECK_FALSE(c.sweeping());
+
+    // The path: log D = log D0 + (log D1 - log D0) s(k / len), s the C3 smoothstep
+    // 35 t^4 - 84 t^5 + 70 t^6 - 20 t^7 (common practice), exact at both ends.
+    const double d0 = 2.0e-3 * fs, d1 = 9.0e-3 * fs;
+    double worstPath = 0.0;
+    for (int k = 0; k <= len + 100; ++k)
+    {
+        const double t = std::min(1.0, k / static_cast<double>(len));
+        const double s = t * t * t * t * (35.0 + t * (-84.0 + t * (70.0 - 20.0 * t)));
+        const double expect = std::exp(std::log(d0) + (std::log(d1) - std::log(d0)) * s);
+        worstPath = std::max(worstPath, std::abs(run.delay[start + k] - expect));
+    }
+    CHECK(worstPath < 1e-9);
+    CHECK(run.delay[start - 1] == Approx(d0).epsilon(1e-12));
+    CHECK(run.delay[n - 1] == Approx(d1).epsilon(1e-12));
+
+    // y[n] = x[n] + g x(n - D[n]) with x the analytic sine. Third-order Lagrange
+    // interpolation of a sinusoid errs by at most w^4 / 4! max|prod (d - k)| (the polynomial
+    // interpolation remainder; Laakso et al. 1996): w = 0.039 rad, prod <= 0.5625 at the
+    // centre, so 5.4e-8 of the amplitude; bar 1e-7 x a x g.
+    double worst = 0.0;
+    for (std::size_t i = 1000; i < n; ++i)
+    {
+        const double expect = x[i] + 0.5 * sine(static_cast<double>(i) - run.delay[i]);
+        worst = std::max(worst, std::abs(run.y[i] - expect));
+    }
+    WARN("comb sweep 2 -> 9 ms in 20 ms: worst deviation from the moving delayed sine " << worst);
+    CHECK(worst < 1e-7 * a * 0.5);
+}
+
+TEST_CASE("comb sweep: a new target during a sweep carries the delay's rate of change on", "[comb]")
+{
+    // A sweep restarted from rest would jump the delay's rate from about 1.5 samples per
+    // sample to 0 (a second difference of ~1.5); carried on, the path's second differences
+    // stay those of smooth 20 ms sweeps (below ~0.01 here: D |ln ratio| max|s''| / len^2 =
+    // 432 x 1.5 x 7.5 / 960^2 = 5e-3 for the first move; computed).
+    const double fs = 48000.0;
+    const std::size_t n = 9000, start = 2000;
+    std::vector<double> x(n, 0.0);
+    CombStage c;
+    c.prepare(fs, 512, 1);
+    c.setSettings(sweepingComb(2.0));
+    SweepRun run{std::vector<double>(n), std::vector<double>(n)};
+    stepComb(c, x, 0, start, run);
+    c.sweepTo(sweepingComb(9.0), 960);
+    stepComb(c, x, start, start + 400, run);
+    c.sweepTo(sweepingComb(4.0), 960); // turns back while moving fast
+    stepComb(c, x, start + 400, start + 700, run);
+    c.sweepTo(sweepingComb(30.0), 2400); // and again, with a longer glide
+    stepComb(c, x, start + 700, n, run);
+    double worst = 0.0;
+    for (std::size_t i = 2; i < n; ++i)
+        worst = std::max(worst, std::abs(run.delay[i] - 2.0 * run.delay[i - 1] + run.delay[i - 2]));
+    WARN("comb sweeps taken over twice: largest second difference of the delay " << worst);
+    CHECK(worst < 0.03);
+    CHECK(run.delay[n - 1] == Approx(30.0e-3 * fs).epsilon(1e-12));
+}
+
+TEST_CASE("comb sweep: only odd-order Lagrange combs that ask for it sweep, and only their "
+          "delay or pitch",
+          "[comb]")
+{
+    CombStage c;
+    c.prepare(48000.0, 512, 1);
+    c.setSettings(sweepingComb(2.0));
+    CHECK(c.canSweepTo(sweepingComb(7.0)));
+    CombSettings pitched = sweepingComb(2.0);
+    pitched.pitchHz = 180.0;
+    CHECK(c.canSweepTo(pitched));
+    CombSettings other = sweepingComb(7.0);
+    other.gain = 0.4;
+    CHECK_FALSE(c.canSweepTo(other));
+    other = sweepingComb(7.0);
+    other.sweepDelay = false;
+    CHECK_FALSE(c.canSweepTo(other));
+    other = sweepingComb(7.0);
+    other.interpolation = DelayInterpolation::thiran;
+    CHECK_FALSE(c.canSweepTo(other));
+    CombSettings even = sweepingComb(2.0);
+    even.interpolationOrder = 4; // even orders' tap sets do not meet where the line steps
+    c.setSettings(even);
+    even.delayMs = 7.0;
+    CHECK_FALSE(c.canSweepTo(even));
+}
+
+TEST_CASE("comb sweep: a feedback comb at its gain limit stays bounded under random sweeps",
+          "[comb]")
+{
+    // A loop 1/(1 - g E) with |g| < 1 is stable while still; under motion, boundedness is
+    // checked: 20 s of noise through random pitch and delay sweeps (12 ms - 0.5 s, new
+    // targets every 5 - 300 ms, often mid-sweep), gains +-0.995, damping on and off. The
+    // still loop's largest gain is 1 / (1 - 0.995) = 200 (46 dB); the output must stay
+    // finite and within that of the input's peak.
+    const double fs = 48000.0;
+    std::mt19937 rng(77);
+    std::uniform_real_distribution<double> u(0.0, 1.0);
+    for (double g : {0.995, -0.995})
+        for (double damp : {0.0, 3000.0})
+        {
+            CombSettings s;
+            s.mode = CombMode::feedback;
+            s.gain = g;
+            s.dampingHz = damp;
+            s.sweepDelay = true;
+            s.pitchHz = 220.0;
+            CombStage c;
+            c.prepare(fs, 512, 2);
+            c.setSettings(s);
+            std::vector<double> l(256), r(256);
+            double peakIn = 0.0, peakOut = 0.0;
+            bool finite = true;
+            long long next = 0;
+            for (long long t = 0; t < static_cast<long long>(20.0 * fs); t += 256)
+            {
+                if (t >= next)
+                {
+                    CombSettings to = s;
+                    if (u(rng) < 0.5)
+                    {
+                        to.pitchHz = 0.0;
+                        to.delayMs =
+                            kCombMinDelayMs * std::pow(kCombMaxDelayMs / kCombMinDelayMs, u(rng));
+                    }
+                    else
+                        to.pitchHz = 20.0 * std::pow(250.0, u(rng));
+                    REQUIRE(c.canSweepTo(to));
+                    c.sweepTo(to, static_cast<int>(fs * (0.012 + 0.488 * u(rng) * u(rng))));
+                    next = t + static_cast<long long>(fs * (0.005 + 0.295 * u(rng)));
+                }
+                for (int i = 0; i < 256; ++i)
+                {
+                    l[static_cast<std::size_t>(i)] = 0.01 * (2.0 * u(rng) - 1.0);
+                    r[static_cast<std::size_t>(i)] = 0.01 * (2.0 * u(rng) - 1.0);
+                    peakIn = std::max(peakIn, std::abs(l[static_cast<std::size_t>(i)]));
+                }
+                double* ch[2] = {l.data(), r.data()};
+                c.process(ch, 2, 256);
+                for (int i = 0; i < 256; ++i)
+                {
+                    const double v = l[static_cast<std::size_t>(i)];
+                    finite = finite && std::isfinite(v);
+                    peakOut = std::max(peakOut, std::abs(v));
+                }
+            }
+            INFO("gain " << g << ", damping " << damp);
+            WARN("feedback comb, random sweeps, gain "
+                 << g << " damping " << damp << ": output peak / input peak " << peakOut / peakIn);
+            CHECK(finite);
+            CHECK(peakOut <= 200.0 * peakIn);
+        }
+}
+
+TEST_CASE("comb sweep: a chain whose comb asks for sweeps moves its delay in place, exactly as "
+          "the comb alone sweeping over the glide time",
+          "[comb][smoothing]")
+{
+    // No crossfade: the chain's output equals one comb instance sweeping from the update
+    // point where the new chain arrives (blocks of 32 samples: that block's first sample)
+    // over transitionSamples(glide time); with sweeps off, the same change crossfades and
+    // the output differs.
+    const double fs = 48000.0;
+    const std::size_t n = 9600, at = 4800;
+    std::vector<double> x(n);
+    std::mt19937 rng(5);
+    std::uniform_real_distribution<double> u(-0.3, 0.3);
+    for (auto& v : x)
+        v = u(rng);
+    for (bool sweep : {true, false})
+    {
+        auto spec = [&](double ms)
+        {
+            ChainSpec c;
+            StageSpec st;
+            st.type = StageType::comb;
+            st.comb = sweepingComb(ms);
+            st.comb.sweepDelay = sweep;
+            c.push(st);
+            return c;
+        };
+        ChainProcessor p;
+        p.prepare(fs, 32, 1);
+        p.setGlideMs(20.0);
+        p.setChain(spec(2.0));
+        std::vector<double> y = x;
+        bool moving = false;
+        for (std::size_t off = 0; off < n; off += 32)
+        {
+            if (off == at)
+                p.setChain(spec(9.0));
+            double* ch[1] = {y.data() + off};
+            p.process(ch, 1, 32);
+            moving = moving || (off > at && p.isMoving());
+        }
+        CombStage c;
+        c.prepare(fs, 512, 1);
+        c.setSettings(spec(2.0).stages[0].comb);
+        std::vector<double> z = x;
+        double* zc[1] = {z.data()};
+        c.process(zc, 1, static_cast<int>(at));
+        c.sweepTo(spec(9.0).stages[0].comb, transitionSamples(20.0, fs));
+        double* zr[1] = {z.data() + at};
+        c.process(zr, 1, static_cast<int>(n - at));
+        double worst = 0.0;
+        for (std::size_t i = 0; i < n; ++i)
+            worst = std::max(worst, std::abs(y[i] - z[i]));
+        INFO("sweep " << sweep);
+        CHECK(moving);
+        if (sweep)
+            CHECK(worst < 1e-12);
+        else
+            CHECK(worst > 1e-3);
+    }
 }
