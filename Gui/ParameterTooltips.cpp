@@ -86,6 +86,10 @@ juce::String parameterTooltip(const juce::String& id)
             return "Low-pass inside " + c + "'s delayed path (the top of the range: none)";
         if (p.field == "mix")
             return "Dry/wet of " + c + " (1: comb only)";
+        if (p.field == "change")
+            return "How " + c +
+                   " takes a new delay or pitch: crossfade (no pitch sweep) or "
+                   "sweep (the pitch glides over the glide time)";
         return {};
     }
     if (id == "echo_on")

@@ -428,6 +428,7 @@ public:
         mix = field(addSlider(ids::comb(sl, "mix"), n + " dry/wet"), "dry/wet", 70);
         delay = field(addSlider(ids::comb(sl, "delay"), n + " delay"), "delay", 100);
         pitch = field(addSlider(ids::comb(sl, "pitch"), n + " pitch"), "pitch", 96);
+        change = field(addChoice(ids::comb(sl, "change"), n + " delay change"), "change", 100);
 
         // Note controls: not parameters themselves; each change sets the pitch parameter
         // as one gesture.
@@ -499,7 +500,7 @@ public:
         const bool pitchTuned = byPitch();
         on.control->setVisible(true);
         mode.control->setVisible(true);
-        for (auto* f : {&tuning, &gain, &damp, &mix})
+        for (auto* f : {&tuning, &gain, &damp, &mix, &change})
             f->control->setVisible(open);
         delay.control->setVisible(open && !pitchTuned);
         pitch.control->setVisible(open && pitchTuned);
@@ -519,7 +520,8 @@ public:
             return;
         }
         placeLine(rest, {&gain, &damp, &mix});
-        placeLine(lineOf(area, 1).withTrimmedLeft(26), {&tuning, &delay, &pitch, &noteText});
+        placeLine(lineOf(area, 1).withTrimmedLeft(26),
+                  {&tuning, &delay, &pitch, &noteText, &change});
         placeLine(lineOf(area, 2).withTrimmedLeft(26), {&noteName, &noteOctave, &centsField});
     }
 
@@ -591,7 +593,7 @@ private:
     }
 
     juce::String prefix;
-    Field on, mode, tuning, gain, damp, mix, delay, pitch, noteText, noteName, noteOctave,
+    Field on, mode, tuning, gain, damp, mix, delay, pitch, change, noteText, noteName, noteOctave,
         centsField;
     juce::Slider* centsSlider = nullptr;
     bool centsDragging = false;

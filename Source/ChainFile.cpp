@@ -151,7 +151,8 @@ juce::StringArray fieldsOf(dsp::StageType type)
     case T::echoCancel:
         return {"method", "terms", "reflections", "non_causal"};
     case T::comb:
-        return {"mode", "delay_ms", "pitch_hz", "gain", "damping_hz", "mix", "interpolation"};
+        return {"mode",       "delay_ms", "pitch_hz",      "gain",
+                "damping_hz", "mix",      "interpolation", "delay_change"};
     }
     return {};
 }
@@ -206,17 +207,24 @@ juce::String readEchoStage(const juce::DynamicObject& obj, const juce::String& w
     return {};
 }
 
-/// The comb fields: mode, delay_ms or pitch_hz, gain, damping_hz, mix, interpolation.
+/// The comb fields: mode, delay_ms or pitch_hz, gain, damping_hz, mix, interpolation,
+/// delay_change.
 juce::String readCombStage(const juce::DynamicObject& obj, const juce::String& where,
                            dsp::StageSpec& s)
 {
     auto& c = s.comb;
-    int mode = 0, interp = 0;
+    int mode = 0, interp = 0, change = 0;
     auto err = readChoice(obj, "mode", {"feedforward", "feedback"}, where, mode);
     if (err.isEmpty())
         err = readChoice(obj, "interpolation", {"lagrange", "thiran"}, where, interp);
+    if (err.isEmpty())
+        err = readChoice(obj, "delay_change", {"crossfade", "sweep"}, where, change);
+    if (err.isEmpty() && change == 1 && interp == 1)
+        err = where + ", field 'delay_change': \"sweep\" needs \"interpolation\": \"lagrange\" "
+                      "(a moving all-pass interpolator would click)";
     if (err.isNotEmpty())
         return err;
+    c.sweepDelay = change == 1;
     c.mode = mode == 0 ? dsp::CombMode::feedforward : dsp::CombMode::feedback;
     c.interpolation =
         interp == 0 ? dsp::DelayInterpolation::lagrange : dsp::DelayInterpolation::thiran;
@@ -681,6 +689,8 @@ juce::String chainToJson(const dsp::ChainSpec& chain, const juce::String& name)
             out << ", \"mix\": " << formatNumber(c.mix);
             if (c.interpolation == dsp::DelayInterpolation::thiran)
                 out << ", \"interpolation\": \"thiran\"";
+            if (c.sweepDelay)
+                out << ", \"delay_change\": \"sweep\"";
             out << ", \"enabled\": " << (s.enabled ? "true" : "false") << "}";
             continue;
         }

@@ -273,6 +273,10 @@ juce::AudioProcessorValueTreeState::ParameterLayout createParameterLayout()
         group->addChild(std::make_unique<juce::AudioParameterFloat>(
             id("mix"), name + " dry/wet", juce::NormalisableRange<float>(0.0f, 1.0f, 0.0001f),
             1.0f));
+        // How a new delay or pitch is taken: crossfade (no pitch sweep) or sweep.
+        group->addChild(std::make_unique<juce::AudioParameterChoice>(
+            juce::ParameterID{ids::comb(c, "change"), kParameterVersionSweep},
+            name + " delay change", juce::StringArray{"Crossfade", "Sweep"}, 0));
         layout.add(std::move(group));
     }
 
@@ -335,6 +339,7 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
         k.gain = state.getRawParameterValue(ids::comb(c, "gain"));
         k.damp = state.getRawParameterValue(ids::comb(c, "damp"));
         k.mix = state.getRawParameterValue(ids::comb(c, "mix"));
+        k.change = state.getRawParameterValue(ids::comb(c, "change"));
     }
     echoOn = state.getRawParameterValue(ids::echoOn);
     echoMethod = state.getRawParameterValue(ids::echoMethod);
@@ -375,6 +380,7 @@ void ParameterRefs::readChain(dsp::ChainSpec& out) const noexcept
         const float damp = k.damp->load(std::memory_order_relaxed);
         st.comb.dampingHz = damp >= kCombDampingOffHz ? 0.0 : damp;
         st.comb.mix = k.mix->load(std::memory_order_relaxed);
+        st.comb.sweepDelay = choiceIndex(k.change, 2) == 1;
     }
     {
         // Stage 0: the echo canceller, with the reflections whose gain is not zero.
@@ -498,6 +504,7 @@ bool applyChainToParameters(const dsp::ChainSpec& chain, juce::AudioProcessorVal
         set(ids::comb(c, "damp"),
             k.dampingHz > 0.0 ? static_cast<float>(k.dampingHz) : kCombDampingOffHz);
         set(ids::comb(c, "mix"), static_cast<float>(k.mix));
+        set(ids::comb(c, "change"), k.sweepDelay ? 1.0f : 0.0f);
     }
     set(ids::echoOn, echo != nullptr && echo->enabled ? 1.0f : 0.0f);
     set(ids::echoMethod,

@@ -28,6 +28,8 @@ inline constexpr int kParameterVersion = 1;
 inline constexpr int kParameterVersionGlide = 2;
 /// Version hint of the plugin's own bypass (the host's bypass switch, faded).
 inline constexpr int kParameterVersionBypass = 3;
+/// Version hint of the combs' delay-change choice (crossfade or sweep).
+inline constexpr int kParameterVersionSweep = 4;
 /// Section slots the plugin offers.
 inline constexpr int kNumSectionSlots = 24;
 /// Comb slots the plugin offers (after the sections in the chain).
@@ -101,7 +103,7 @@ struct ParameterRefs
     struct Comb
     {
         std::atomic<float>*on = nullptr, *mode = nullptr, *tuning = nullptr, *delay = nullptr,
-        *pitch = nullptr, *gain = nullptr, *damp = nullptr, *mix = nullptr;
+        *pitch = nullptr, *gain = nullptr, *damp = nullptr, *mix = nullptr, *change = nullptr;
     };
     std::array<Comb, kNumCombSlots> combs{};
 

@@ -211,10 +211,12 @@ TEST_CASE("chain file: comb stages", "[chain][comb]")
     // Source: README.md chain-file reference (comb fields; feedback gain held below 1).
     using namespace kerf::dsp;
     const auto r = parseChainJson(R"({"format": "kerf-chain", "version": 1, "stages": [
-      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.9, "damping_hz": 4000, "mix": 0.5},
+      {"type": "comb", "mode": "feedback", "pitch_hz": 220, "gain": 0.9, "damping_hz": 4000, "mix": 0.5, "delay_change": "sweep"},
       {"type": "comb", "delay_ms": 2.5, "gain": -1, "interpolation": "thiran"}]})");
     INFO(r.error);
     REQUIRE(r.ok);
+    CHECK(r.chain.stages[0].comb.sweepDelay);
+    CHECK_FALSE(r.chain.stages[1].comb.sweepDelay); // "crossfade", the default
     CHECK(r.chain.stages[0].comb.mode == CombMode::feedback);
     CHECK(r.chain.stages[0].comb.pitchHz == 220.0);
     CHECK(r.chain.stages[0].comb.dampingHz == 4000.0);
@@ -233,4 +235,10 @@ TEST_CASE("chain file: comb stages", "[chain][comb]")
     CHECK(err(R"({"type": "comb", "delay_ms": 5, "pitch_hz": 100})").contains("exactly one"));
     CHECK(err(R"({"type": "comb", "delay_ms": 500})").contains("'delay_ms'"));
     CHECK(err(R"({"type": "comb", "delay_ms": 5, "mix": 2})").contains("'mix'"));
+    CHECK(err(R"({"type": "comb", "delay_ms": 5, "delay_change": "glide"})")
+              .contains("'delay_change'"));
+    // A moving all-pass interpolator would click: sweeps need Lagrange interpolation.
+    CHECK(
+        err(R"({"type": "comb", "delay_ms": 5, "interpolation": "thiran", "delay_change": "sweep"})")
+            .contains("lagrange"));
 }

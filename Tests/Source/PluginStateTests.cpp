@@ -42,9 +42,9 @@ TEST_CASE("plugin: state round trip restores every parameter exactly", "[plugin]
     const auto pb = b.getParameters();
     REQUIRE(pa.size() == pb.size());
     // 24 slots of 10, the echo stage (on, method, terms, 4 x delay and gain), 3 output,
-    // the glide time, 2 combs of 8, the bypass.
+    // the glide time, 2 combs of 9 (the delay change among them), the bypass.
     REQUIRE(pa.size() == kNumSectionSlots * 10 + 3 + 2 * dsp::kMaxEchoReflections + 3 + 1 +
-                             kNumCombSlots * 8 + 1);
+                             kNumCombSlots * 9 + 1);
     for (int i = 0; i < pa.size(); ++i)
     {
         auto* ra = dynamic_cast<juce::RangedAudioParameter*>(pa[i]);

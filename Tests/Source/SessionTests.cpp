@@ -75,7 +75,7 @@ const char* const kChainA = R"({"format": "kerf-chain", "version": 1, "stages": 
 const char* const kChainB = R"({"format": "kerf-chain", "version": 1, "stages": [
   {"type": "low_shelf", "freq_hz": 200, "gain_db": 4, "slope": 0.8},
   {"type": "notch", "freq_hz": 160, "q": 2},
-  {"type": "comb", "delay_ms": 2.5, "gain": 0.5, "mix": 0.5},
+  {"type": "comb", "delay_ms": 2.5, "gain": 0.5, "mix": 0.5, "delay_change": "sweep"},
   {"type": "echo_cancel", "reflections": [{"delay_ms": 6, "gain": 0.3}]}]})";
 
 dsp::ChainSpec parse(const char* text)
@@ -209,6 +209,14 @@ TEST_CASE("chain files: export and import through files", "[plugin][presets]")
     TempDir tmp;
     KerfProcessor p;
     REQUIRE(p.importChain(parse(kChainB)).isEmpty());
+    // The comb's delay change travels through the parameters (combN_change).
+    const auto held = p.exportChain();
+    int sweeping = 0;
+    for (int i = 0; i < held.numStages; ++i)
+        if (held.stages[static_cast<std::size_t>(i)].type == dsp::StageType::comb &&
+            held.stages[static_cast<std::size_t>(i)].enabled)
+            sweeping += held.stages[static_cast<std::size_t>(i)].comb.sweepDelay ? 1 : 0;
+    CHECK(sweeping == 1);
     const auto file = tmp.dir.getChildFile("out.json");
     CHECK(p.exportChainFile(file, "exported").isEmpty());
     const auto r = readChainFile(file);
