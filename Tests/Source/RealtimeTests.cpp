@@ -175,3 +175,58 @@ TEST_CASE("realtime: the live analyzer's feed never allocates, its thread draini
     CHECK(live.analysis().frames() > 0);
     CHECK(snapshots + (live.update() ? 1 : 0) > 0);
 }
+
+TEST_CASE("realtime: comb delay sweeps never allocate", "[plugin][comb]")
+{
+    // Common practice (no heap allocation on the audio thread): both combs on with their
+    // delay change set to Sweep, their delay, pitch and tuning moved before most blocks
+    // (sweeps taken over mid-way), the glide time automated, blocks of 1 - 700 samples.
+    juce::ScopedJuceInitialiser_GUI init;
+    kerf::KerfProcessor p;
+    p.setPlayConfigDetails(2, 2, 48000.0, 700);
+    p.prepareToPlay(48000.0, 700);
+    auto set = [&p](const juce::String& id, float value)
+    {
+        auto* q = p.state().getParameter(id);
+        REQUIRE(q != nullptr);
+        q->setValueNotifyingHost(q->convertTo0to1(value));
+    };
+    for (int c = 0; c < kerf::kNumCombSlots; ++c)
+    {
+        set(kerf::ids::comb(c, "on"), 1.0f);
+        set(kerf::ids::comb(c, "mode"), static_cast<float>(c)); // feedforward, feedback
+        set(kerf::ids::comb(c, "gain"), 0.9f);
+        set(kerf::ids::comb(c, "change"), 1.0f); // Sweep
+    }
+    juce::AudioBuffer<float> buffer(2, 700);
+    juce::MidiBuffer midi;
+    std::mt19937 rng(6262u);
+    std::uniform_real_distribution<float> u(0.0f, 1.0f);
+    bool finite = true;
+    const long long before = kerf::allochook::count();
+    for (int block = 0; block < 1200; ++block)
+    {
+        const int n = 1 + static_cast<int>(u(rng) * 699.0f);
+        const int c = static_cast<int>(u(rng) * kerf::kNumCombSlots) % kerf::kNumCombSlots;
+        if (u(rng) < 0.7f)
+            set(kerf::ids::comb(c, "delay"), 0.05f * std::pow(2000.0f, u(rng)));
+        if (u(rng) < 0.3f)
+            set(kerf::ids::comb(c, "pitch"), 20.0f * std::pow(250.0f, u(rng)));
+        if (u(rng) < 0.1f)
+            set(kerf::ids::comb(c, "tuning"), u(rng) < 0.5f ? 0.0f : 1.0f);
+        if (u(rng) < 0.05f)
+            set(kerf::ids::glideMs, 1000.0f * u(rng) * u(rng));
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < n; ++i)
+                buffer.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
+        juce::AudioBuffer<float> view(buffer.getArrayOfWritePointers(), 2, n);
+        kerf::allochook::counting = true;
+        p.processBlock(view, midi);
+        kerf::allochook::counting = false;
+        for (int ch = 0; ch < 2; ++ch)
+            for (int i = 0; i < n; ++i)
+                finite = finite && std::isfinite(view.getSample(ch, i));
+    }
+    CHECK(kerf::allochook::count() - before == 0);
+    CHECK(finite);
+}
