@@ -11,6 +11,29 @@
 #include <cmath>
 #include <random>
 
+namespace
+{
+/// Fills the first n samples of both channels with noise, processes them as one block with
+/// the allocation count on (as the audio thread would), and says whether all came out finite.
+bool processNoiseCounted(kerf::KerfProcessor& p, juce::AudioBuffer<float>& buffer, int n,
+                         std::uniform_real_distribution<float>& u, std::mt19937& rng)
+{
+    juce::AudioBuffer<float> view(buffer.getArrayOfWritePointers(), 2, n);
+    for (int ch = 0; ch < 2; ++ch)
+        for (int i = 0; i < n; ++i)
+            view.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
+    juce::MidiBuffer midi;
+    kerf::allochook::counting = true;
+    p.processBlock(view, midi);
+    kerf::allochook::counting = false;
+    bool finite = true;
+    for (int ch = 0; ch < 2; ++ch)
+        for (int i = 0; i < n; ++i)
+            finite = finite && std::isfinite(view.getSample(ch, i));
+    return finite;
+}
+} // namespace
+
 TEST_CASE("realtime: processing with changing parameters never allocates", "[plugin]")
 {
     // Common practice for audio callbacks (no heap allocation on the audio thread); the
@@ -72,7 +95,6 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
     p.setCurrentProgram(p.getNumPrograms() - 1);
     p.getStateInformation(stateB);
     juce::AudioBuffer<float> buffer(2, 1500);
-    juce::MidiBuffer midi;
     const unsigned seed = 5151u;
     INFO("seed " << seed);
     std::mt19937 rng(seed);
@@ -115,16 +137,7 @@ TEST_CASE("realtime: glides, crossfades, preset loads and A/B switches never all
                         : u(rng);
                 q->setValueNotifyingHost(v);
             }
-        juce::AudioBuffer<float> view(buffer.getArrayOfWritePointers(), 2, n);
-        for (int ch = 0; ch < 2; ++ch)
-            for (int i = 0; i < n; ++i)
-                view.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
-        kerf::allochook::counting = true;
-        p.processBlock(view, midi);
-        kerf::allochook::counting = false;
-        for (int ch = 0; ch < 2; ++ch)
-            for (int i = 0; i < n; ++i)
-                finite = finite && std::isfinite(view.getSample(ch, i));
+        finite = processNoiseCounted(p, buffer, n, u, rng) && finite;
     }
     CHECK(kerf::allochook::count() == 0);
     CHECK(finite);
@@ -199,7 +212,6 @@ TEST_CASE("realtime: comb delay sweeps never allocate", "[plugin][comb]")
         set(kerf::ids::comb(c, "change"), 1.0f); // Sweep
     }
     juce::AudioBuffer<float> buffer(2, 700);
-    juce::MidiBuffer midi;
     std::mt19937 rng(6262u);
     std::uniform_real_distribution<float> u(0.0f, 1.0f);
     bool finite = true;
@@ -216,16 +228,7 @@ TEST_CASE("realtime: comb delay sweeps never allocate", "[plugin][comb]")
             set(kerf::ids::comb(c, "tuning"), u(rng) < 0.5f ? 0.0f : 1.0f);
         if (u(rng) < 0.05f)
             set(kerf::ids::glideMs, 1000.0f * u(rng) * u(rng));
-        for (int ch = 0; ch < 2; ++ch)
-            for (int i = 0; i < n; ++i)
-                buffer.setSample(ch, i, 0.1f * (u(rng) - 0.5f));
-        juce::AudioBuffer<float> view(buffer.getArrayOfWritePointers(), 2, n);
-        kerf::allochook::counting = true;
-        p.processBlock(view, midi);
-        kerf::allochook::counting = false;
-        for (int ch = 0; ch < 2; ++ch)
-            for (int i = 0; i < n; ++i)
-                finite = finite && std::isfinite(view.getSample(ch, i));
+        finite = processNoiseCounted(p, buffer, n, u, rng) && finite;
     }
     CHECK(kerf::allochook::count() - before == 0);
     CHECK(finite);
