@@ -1,7 +1,59 @@
 #include "AudioInput.h"
 
+#include <cstring>
+#include <string>
+
 namespace kerf::cli
 {
+
+namespace
+{
+/// WAV (RIFF or RF64, little-endian sizes) and AIFF (FORM, big-endian) files are chunks of a
+/// four-byte id, a 32-bit size and a body padded to an even length. A chunk other than the
+/// audio data that claims more bytes than the file has left is damaged, and JUCE 7.0.5's WAV
+/// reader trusts such claims: it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
+/// walks the sample loops an 'smpl' chunk claims (a 1.6 kB file whose 'smpl' chunk claimed
+/// 2 GB kept `kerf render` busy for minutes: found by fuzzing,
+/// Tests/fuzz/regressions/audio_input). Returns what is wrong, or nothing. The audio data
+/// chunk may run past the end (a cut file: read up to there, then reported) and ends the walk.
+juce::String overlongChunk(juce::InputStream& in)
+{
+    const juce::int64 total = in.getTotalLength();
+    unsigned char head[12] = {};
+    juce::String problem;
+    if (total >= 12 && in.setPosition(0) && in.read(head, 12) == 12)
+    {
+        auto is = [](const unsigned char* p, const char* id) { return std::memcmp(p, id, 4) == 0; };
+        const bool wav = (is(head, "RIFF") || is(head, "RF64")) && is(head + 8, "WAVE");
+        const bool aiff = is(head, "FORM") && (is(head + 8, "AIFF") || is(head + 8, "AIFC"));
+        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= total;)
+        {
+            unsigned char h[8] = {};
+            if (!in.setPosition(pos) || in.read(h, 8) != 8)
+                break;
+            const juce::uint32 size = wav ? juce::ByteOrder::littleEndianInt(h + 4)
+                                          : juce::ByteOrder::bigEndianInt(h + 4);
+            const juce::int64 left = total - pos - 8;
+            if (static_cast<juce::int64>(size) > left)
+            {
+                if (!(wav ? is(h, "data") : is(h, "SSND")))
+                {
+                    std::string id;
+                    for (int i = 0; i < 4; ++i)
+                        id += h[i] >= 32 && h[i] < 127 ? static_cast<char>(h[i]) : '?';
+                    problem = "its '" + juce::String(id) + "' chunk claims " +
+                              juce::String(static_cast<juce::int64>(size)) +
+                              " bytes where the file has " + juce::String(left) + " left";
+                }
+                break;
+            }
+            pos += 8 + static_cast<juce::int64>(size) + (size & 1u);
+        }
+    }
+    in.setPosition(0);
+    return problem;
+}
+} // namespace
 
 /// Wraps a file stream and remembers whether a read came up short.
 class AudioInput::ShortReadDetector : public juce::InputStream
@@ -54,6 +106,12 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
 {
     juce::AudioFormatManager formats;
     formats.registerBasicFormats();
+    if (const auto problem = overlongChunk(*stream); problem.isNotEmpty())
+    {
+        error = "input " + name + " is not a readable WAV, AIFF or FLAC file (damaged: " + problem +
+                ")";
+        return nullptr;
+    }
     auto input = std::unique_ptr<AudioInput>(new AudioInput());
     input->detector_ = new ShortReadDetector(std::move(stream));
     input->reader_.reset(

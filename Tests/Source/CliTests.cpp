@@ -794,6 +794,12 @@ TEST_CASE("cli: a failed render leaves an existing output as it was and no tempo
     juce::MemoryBlock magic(wav);
     std::memcpy(magic.getData(), "JUNK", 4); // not "RIFF"
     t["magic.wav"].replaceWithData(magic.getData(), magic.getSize());
+    // A metadata chunk after the audio that claims about 2 GB (JUCE 7.0.5 allocates what an
+    // 'smpl' chunk claims and walks its claimed loops; found by fuzzing).
+    juce::MemoryBlock smpl(wav);
+    const char chunk[12] = {'s', 'm', 'p', 'l', '\xf0', '\xff', '\xff', '\x7f', 0, 0, 0, 0};
+    smpl.append(chunk, sizeof(chunk));
+    t["smpl.wav"].replaceWithData(smpl.getData(), smpl.getSize());
     t["zero.wav"].create();                             // zero bytes
     t["text.wav"].replaceWithText("just some notes\n"); // a text file named .wav
     t["out.wav"].replaceWithText("an earlier render, kept until a new one is complete");
@@ -823,6 +829,10 @@ TEST_CASE("cli: a failed render leaves an existing output as it was and no tempo
          {"render", "magic.wav", "out.wav", "--chain", "chain.json"},
          "not a readable WAV, AIFF or FLAC file",
          "magic.wav"},
+        {"metadata chunk longer than the file",
+         {"render", "smpl.wav", "out.wav", "--chain", "chain.json"},
+         "'smpl' chunk claims 2147483632 bytes",
+         "smpl.wav"},
         {"zero-length file",
          {"render", "zero.wav", "out.wav", "--chain", "chain.json"},
          "not a readable WAV, AIFF or FLAC file",
