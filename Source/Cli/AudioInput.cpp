@@ -1,5 +1,6 @@
 #include "AudioInput.h"
 
+#include <algorithm>
 #include <cstring>
 #include <string>
 
@@ -26,7 +27,13 @@ juce::String overlongChunk(juce::InputStream& in)
         auto is = [](const unsigned char* p, const char* id) { return std::memcmp(p, id, 4) == 0; };
         const bool wav = (is(head, "RIFF") || is(head, "RF64")) && is(head + 8, "WAVE");
         const bool aiff = is(head, "FORM") && (is(head + 8, "AIFF") || is(head + 8, "AIFC"));
-        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= total;)
+        // Chunks past the end the header declares are not read (by JUCE either).
+        const juce::uint32 declared = wav ? juce::ByteOrder::littleEndianInt(head + 4)
+                                          : juce::ByteOrder::bigEndianInt(head + 4);
+        const juce::int64 end = declared == 0 || declared == 0xffffffffu
+                                    ? total
+                                    : std::min(total, 8 + static_cast<juce::int64>(declared));
+        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end;)
         {
             unsigned char h[8] = {};
             if (!in.setPosition(pos) || in.read(h, 8) != 8)

@@ -799,6 +799,10 @@ TEST_CASE("cli: a failed render leaves an existing output as it was and no tempo
     juce::MemoryBlock smpl(wav);
     const char chunk[12] = {'s', 'm', 'p', 'l', '\xf0', '\xff', '\xff', '\x7f', 0, 0, 0, 0};
     smpl.append(chunk, sizeof(chunk));
+    auto* riffSize = static_cast<unsigned char*>(smpl.getData()) + 4; // the RIFF now ends later
+    const auto grown = static_cast<juce::uint32>(smpl.getSize() - 8);
+    for (int i = 0; i < 4; ++i)
+        riffSize[i] = static_cast<unsigned char>(grown >> (8 * i));
     t["smpl.wav"].replaceWithData(smpl.getData(), smpl.getSize());
     t["zero.wav"].create();                             // zero bytes
     t["text.wav"].replaceWithText("just some notes\n"); // a text file named .wav
