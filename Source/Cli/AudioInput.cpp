@@ -14,7 +14,7 @@ namespace
 /// audio data that claims more bytes than the file has left is damaged, and JUCE 7.0.5's WAV
 /// reader trusts such claims: it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
 /// walks the sample loops an 'smpl' chunk claims (a 1.6 kB file whose 'smpl' chunk claimed
-/// 2 GB kept `kerf render` busy for minutes: found by fuzzing,
+/// 544 MB kept `kerf render` busy for minutes: found by fuzzing,
 /// Tests/fuzz/regressions/audio_input). Returns what is wrong, or nothing. The audio data
 /// chunk may run past the end (a cut file: read up to there, then reported) and ends the walk.
 juce::String overlongChunk(juce::InputStream& in)
