@@ -3,6 +3,8 @@
 #include "Dsp/SpeechLikeSource.h"
 #include "Dsp/Splatter.h"
 #include "Response/SystemFunction.h"
+#include "Smoothing/Transition.h"
+#include "Stages/CombStage.h"
 
 #include <catch2/catch.hpp>
 #include <juce_audio_formats/juce_audio_formats.h>
@@ -545,6 +547,67 @@ TEST_CASE("cli: a --switch timeline changes chains without splatter", "[cli][smo
                    "2:" + tmp["c.json"].getFullPathName()})
               .exitCode == 2);
     CHECK_FALSE(tmp["x.wav"].exists());
+}
+
+TEST_CASE("cli: a --switch timeline sweeps a comb that asks for it, and crossfades one that "
+          "does not",
+          "[cli][comb]")
+{
+    // README ("delay_change"): with "sweep" in both chains, the comb's delay moves from 2 to
+    // 9 ms over the glide time from the switch on, exactly as one comb stage sweeping there
+    // (the processor's own test, Tests/Dsp/CombTests.cpp, checks that sweep against the
+    // analytic delayed sine); with "crossfade" the same switch crossfades and differs.
+    TempDir tmp;
+    const double rate = 48000.0;
+    const int n = 96000, at = 48000; // the switch at 1.0 s, an update point
+    juce::AudioBuffer<float> in(1, n);
+    for (int i = 0; i < n; ++i)
+        in.setSample(0, i, static_cast<float>(0.4 * std::sin(2.0 * M_PI * 500.0 * i / rate)));
+    writeWav(tmp["in.wav"], in, rate, 32);
+    for (const char* change : {"sweep", "crossfade"})
+    {
+        auto chain = [&](const char* ms)
+        {
+            return juce::String(R"({"format": "kerf-chain", "version": 1, "stages": [
+              {"type": "comb", "delay_ms": )") +
+                   ms + R"(, "gain": 0.5, "delay_change": ")" + change + "\"}]}";
+        };
+        tmp["a.json"].replaceWithText(chain("2"));
+        tmp["b.json"].replaceWithText(chain("9"));
+        const auto r =
+            runKerf({"render", tmp["in.wav"].getFullPathName(), tmp["t.wav"].getFullPathName(),
+                     "--chain", tmp["a.json"].getFullPathName(), "--switch",
+                     "1.0:" + tmp["b.json"].getFullPathName(), "--glide", "50"});
+        INFO(change << ": " << r.output);
+        REQUIRE(r.exitCode == 0);
+        auto reader = openWav(tmp["t.wav"]);
+        juce::AudioBuffer<float> got(1, n);
+        reader->read(&got, 0, n, 0, true, true);
+
+        kerf::dsp::CombSettings from, to;
+        from.delayMs = 2.0;
+        to.delayMs = 9.0;
+        from.gain = to.gain = 0.5;
+        from.sweepDelay = to.sweepDelay = true;
+        kerf::dsp::CombStage comb;
+        comb.prepare(rate, 512, 1);
+        comb.setSettings(from);
+        std::vector<double> x(static_cast<std::size_t>(n));
+        for (int i = 0; i < n; ++i)
+            x[static_cast<std::size_t>(i)] = in.getSample(0, i);
+        double* head[1] = {x.data()};
+        comb.process(head, 1, at);
+        comb.sweepTo(to, kerf::dsp::transitionSamples(50.0, rate));
+        double* tail[1] = {x.data() + at};
+        comb.process(tail, 1, n - at);
+        double worst = 0.0;
+        for (int i = 0; i < n; ++i)
+            worst = std::max(worst, std::abs(got.getSample(0, i) - x[static_cast<std::size_t>(i)]));
+        if (juce::String(change) == "sweep")
+            CHECK(worst < 1e-6); // float file: rounding only
+        else
+            CHECK(worst > 1e-2);
+    }
 }
 
 TEST_CASE("cli: render processes NaN and infinite input samples as silence and says so",
