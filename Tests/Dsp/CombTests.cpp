@@ -248,10 +248,11 @@ TEST_CASE("comb sweep: the output is the input plus the input delayed by the mov
 
 TEST_CASE("comb sweep: a new target during a sweep carries the delay's rate of change on", "[comb]")
 {
-    // A sweep restarted from rest would jump the delay's rate from about 1.5 samples per
-    // sample to 0 (a second difference of ~1.5); carried on, the path's second differences
-    // stay those of smooth 20 ms sweeps (below ~0.01 here: D |ln ratio| max|s''| / len^2 =
-    // 432 x 1.5 x 7.5 / 960^2 = 5e-3 for the first move; computed).
+    // A sweep restarted from rest would jump the delay's rate from about 0.5 samples per
+    // sample (where the first sweep is taken over: D ln(4.5) s'(0.42) / 960 = 168 x 1.5 x 2.0
+    // / 960) to 0, a second difference of ~0.5 (measured 0.49); carried on, the path's second
+    // differences stay those of smooth 20 ms sweeps (below ~0.01 here: D |ln ratio| max|s''|
+    // / len^2 = 432 x 1.5 x 7.5 / 960^2 = 5e-3 for the first move; computed).
     const double fs = 48000.0;
     const std::size_t n = 9000, start = 2000;
     std::vector<double> x(n, 0.0);
