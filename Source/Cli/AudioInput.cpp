@@ -15,9 +15,16 @@ namespace
 /// reader trusts such claims: it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
 /// walks the sample loops an 'smpl' chunk claims (a 1.6 kB file whose 'smpl' chunk claimed
 /// 544 MB kept `kerf render` busy for minutes: found by fuzzing,
-/// Tests/fuzz/regressions/audio_input). Returns what is wrong, or nothing. The audio data
+/// Tests/fuzz/regressions/audio_input). Its AIFF reader reads as many markers ('MARK') or
+/// comments ('COMT') as the chunk's 16-bit count says, on past the chunk and the file's end,
+/// making strings for each (a 262-byte AIFF of twenty 'COMT' chunks that each count 65535
+/// comments in 2 bytes took 11.5 s; found by fuzzing). Every marker takes at least 8 bytes
+/// (id 2, position 4, a name of at least its count byte and a pad byte) and so does every
+/// comment (time stamp 4, marker 2, count 2, then its text): Audio Interchange File Format
+/// 1.3, Apple Computer 1989, "Marker Chunk" and "Comments Chunk" (from memory), so a count
+/// the chunk has no room for is damaged. Returns what is wrong, or nothing. The audio data
 /// chunk may run past the end (a cut file: read up to there, then reported) and ends the walk.
-juce::String overlongChunk(juce::InputStream& in)
+juce::String damagedChunk(juce::InputStream& in)
 {
     const juce::int64 total = in.getTotalLength();
     unsigned char head[12] = {};
@@ -53,6 +60,21 @@ juce::String overlongChunk(juce::InputStream& in)
                               " bytes where the file has " + juce::String(left) + " left";
                 }
                 break;
+            }
+            const bool markers = aiff && is(h, "MARK"), comments = aiff && is(h, "COMT");
+            unsigned char c[2] = {};
+            // JUCE reads the count even where the chunk is too short to hold it.
+            if ((markers || comments) && in.read(c, 2) == 2)
+            {
+                const juce::uint32 count = juce::ByteOrder::bigEndianShort(c);
+                const juce::uint32 room = size >= 2 ? (size - 2) / 8 : 0;
+                if (count > room)
+                {
+                    problem = "its '" + juce::String(markers ? "MARK" : "COMT") + "' chunk lists " +
+                              juce::String(count) + (markers ? " markers" : " comments") +
+                              " where it has room for " + juce::String(room);
+                    break;
+                }
             }
             pos += 8 + static_cast<juce::int64>(size) + (size & 1u);
         }
@@ -113,7 +135,7 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
 {
     juce::AudioFormatManager formats;
     formats.registerBasicFormats();
-    if (const auto problem = overlongChunk(*stream); problem.isNotEmpty())
+    if (const auto problem = damagedChunk(*stream); problem.isNotEmpty())
     {
         error = "input " + name + " is not a readable WAV, AIFF or FLAC file (damaged: " + problem +
                 ")";

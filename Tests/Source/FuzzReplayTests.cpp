@@ -10,6 +10,8 @@
 
 #include <catch2/catch.hpp>
 
+#include <cstring>
+
 using namespace kerf;
 
 namespace
@@ -321,4 +323,87 @@ TEST_CASE("fuzz regression: a FLAC header claiming more samples than the file ca
     const auto ok = kerf::cli::AudioInput::open(seed, seedError);
     REQUIRE(ok != nullptr);
     CHECK(ok->reader().lengthInSamples == 256);
+}
+
+TEST_CASE("fuzz regression: AIFF markers and comments counted beyond their chunk are refused",
+          "[fuzz]")
+{
+    // JUCE 7.0.5's AIFF reader reads as many markers ('MARK') or comments ('COMT') as a
+    // chunk's 16-bit count says, past the chunk and the file's end, making strings for each:
+    // a 117-byte input whose second 'COMT' chunk counts 45549 comments took 0.76 s to open
+    // (found by fuzzing), twenty such chunks in 262 bytes 11.5 s. Each marker and each
+    // comment takes at least 8 bytes (Audio Interchange File Format 1.3, Apple Computer 1989,
+    // "Marker Chunk" and "Comments Chunk"; from memory).
+    const auto kept = juce::File(KERF_SOURCE_DIR)
+                          .getChildFile("Tests/fuzz/regressions/audio_input")
+                          .getChildFile("aiff-comt-counts-45549-comments-slow.aiff");
+    REQUIRE(kept.existsAsFile());
+    juce::String error;
+    CHECK(cli::AudioInput::open(kept, error) == nullptr);
+    CHECK(error.contains("'COMT' chunk lists 222 comments where it has room for 2"));
+
+    // A file JUCE's own AIFF writer makes with two markers and two comments (a general-
+    // purpose library's writer, so the counts and sizes are its reading of the format).
+    juce::StringPairArray meta;
+    meta.set("NumCuePoints", "2");
+    meta.set("NumCueLabels", "2");
+    meta.set("NumCueNotes", "2");
+    for (int i = 0; i < 2; ++i)
+    {
+        const juce::String n(i);
+        meta.set("Cue" + n + "Identifier", juce::String(i + 1));
+        meta.set("Cue" + n + "Offset", juce::String(100 * i));
+        meta.set("CueLabel" + n + "Identifier", juce::String(i + 1));
+        meta.set("CueLabel" + n + "Text", i == 0 ? "take 2 starts" : "door slam");
+        meta.set("CueNote" + n + "Identifier", juce::String(i + 1));
+        meta.set("CueNote" + n + "TimeStamp", "0");
+        meta.set("CueNote" + n + "Text", i == 0 ? "host mic" : "re-record?");
+    }
+    juce::MemoryBlock aiff;
+    {
+        juce::AiffAudioFormat format;
+        std::unique_ptr<juce::AudioFormatWriter> writer(format.createWriterFor(
+            new juce::MemoryOutputStream(aiff, false), 48000.0, 1, 16, meta, 0));
+        REQUIRE(writer != nullptr);
+        juce::AudioBuffer<float> silence(1, 256);
+        silence.clear();
+        REQUIRE(writer->writeFromAudioSampleBuffer(silence, 0, 256));
+    }
+    const auto bytes = static_cast<unsigned char*>(aiff.getData());
+    const auto find = [&](const char* id)
+    {
+        for (size_t i = 12; i + 10 <= aiff.getSize(); ++i)
+            if (std::memcmp(bytes + i, id, 4) == 0)
+                return i;
+        return size_t{0};
+    };
+    const auto mark = find("MARK"), comt = find("COMT");
+    REQUIRE(mark > 0);
+    REQUIRE(comt > 0);
+    REQUIRE(bytes[mark + 9] == 2); // counts as written: two of each
+    REQUIRE(bytes[comt + 9] == 2);
+    const auto reopen = [&](const juce::MemoryBlock& data, juce::String& why)
+    {
+        return cli::AudioInput::open(std::make_unique<juce::MemoryInputStream>(data, true),
+                                     "test.aiff", why);
+    };
+    juce::String okError;
+    const auto ok = reopen(aiff, okError);
+    INFO(okError);
+    REQUIRE(ok != nullptr);
+    CHECK(ok->reader().lengthInSamples == 256);
+    CHECK(ok->reader().metadataValues["CueLabel1Text"] == "door slam");
+    CHECK(ok->reader().metadataValues["CueNote0Text"] == "host mic");
+    for (const auto at : {mark, comt})
+    {
+        juce::MemoryBlock damaged(aiff);
+        auto* b = static_cast<unsigned char*>(damaged.getData());
+        b[at + 8] = 0xff; // count 65535 in the same chunk
+        b[at + 9] = 0xff;
+        juce::String why; // refused before JUCE's reader sees the file
+        CHECK(reopen(damaged, why) == nullptr);
+        INFO(why);
+        CHECK(why.contains(at == mark ? "'MARK' chunk lists 65535 markers where it has room for"
+                                      : "'COMT' chunk lists 65535 comments where it has room for"));
+    }
 }
