@@ -407,3 +407,91 @@ TEST_CASE("fuzz regression: AIFF markers and comments counted beyond their chunk
                                       : "'COMT' chunk lists 65535 comments where it has room for"));
     }
 }
+
+TEST_CASE("WAV cue lists that stall or slow JUCE's reader are refused", "[fuzz]")
+{
+    // JUCE 7.0.5's WAV reader walks a 'LIST' chunk of type 'adtl' up to the chunk's end
+    // plus its pad byte, so a chunk whose pad byte the file lacks left its walk at the end
+    // of the file for good (the kept 289-byte file hung kerf render); and a 'labl' or 'note'
+    // shorter than its 4-byte cue id, or an 'ltxt' shorter than its 20 bytes of fields, makes
+    // it read the rest of the file for that entry. Entry layouts: Multimedia Programming
+    // Interface and Data Specifications 1.0, IBM and Microsoft 1991, "Associated Data List"
+    // (from memory).
+    const auto kept = juce::File(KERF_SOURCE_DIR)
+                          .getChildFile("Tests/fuzz/regressions/audio_input")
+                          .getChildFile("wav-list-adtl-past-end-hang.wav");
+    REQUIRE(kept.existsAsFile());
+    juce::String error;
+    CHECK(cli::AudioInput::open(kept, error) == nullptr);
+    CHECK(error.contains("its 'LIST' chunk runs past the end of the file"));
+
+    // A file JUCE's own WAV writer makes with two labels, a note and a region.
+    juce::StringPairArray meta;
+    meta.set("NumCueLabels", "2");
+    meta.set("CueLabel0Identifier", "1");
+    meta.set("CueLabel0Text", "take 2 starts");
+    meta.set("CueLabel1Identifier", "2");
+    meta.set("CueLabel1Text", "door slam");
+    meta.set("NumCueNotes", "1");
+    meta.set("CueNote0Identifier", "1");
+    meta.set("CueNote0Text", "host mic");
+    meta.set("NumCueRegions", "1");
+    meta.set("CueRegion0Identifier", "2");
+    meta.set("CueRegion0SampleLength", "64");
+    meta.set("CueRegion0Text", "breath");
+    juce::MemoryBlock wav;
+    {
+        juce::WavAudioFormat format;
+        std::unique_ptr<juce::AudioFormatWriter> writer(format.createWriterFor(
+            new juce::MemoryOutputStream(wav, false), 48000.0, 1, 16, meta, 0));
+        REQUIRE(writer != nullptr);
+        juce::AudioBuffer<float> silence(1, 256);
+        silence.clear();
+        REQUIRE(writer->writeFromAudioSampleBuffer(silence, 0, 256));
+    }
+    const auto find = [&](const char* id)
+    {
+        const auto* b = static_cast<const unsigned char*>(wav.getData());
+        for (size_t i = 12; i + 8 <= wav.getSize(); ++i)
+            if (std::memcmp(b + i, id, 4) == 0)
+                return i;
+        return size_t{0};
+    };
+    REQUIRE(find("adtl") > 0);
+    const auto reopen = [&](const juce::MemoryBlock& data, juce::String& why)
+    {
+        return cli::AudioInput::open(std::make_unique<juce::MemoryInputStream>(data, true),
+                                     "test.wav", why);
+    };
+    juce::String okError;
+    const auto ok = reopen(wav, okError);
+    INFO(okError);
+    REQUIRE(ok != nullptr);
+    CHECK(ok->reader().lengthInSamples == 256);
+    CHECK(ok->reader().metadataValues["CueLabel1Text"] == "door slam");
+    CHECK(ok->reader().metadataValues["CueNote0Text"] == "host mic");
+    CHECK(ok->reader().metadataValues["CueRegion0Text"] == "breath");
+
+    struct Cut
+    {
+        const char* entry;
+        unsigned char length;
+        const char* message;
+    };
+    for (const Cut& cut : {Cut{"labl", 0, "a 'labl' entry of 0 bytes, shorter than its 4-byte"},
+                           Cut{"note", 3, "a 'note' entry of 3 bytes, shorter than its 4-byte"},
+                           Cut{"ltxt", 12, "an 'ltxt' entry of 12 bytes, shorter than its 20"}})
+    {
+        INFO(cut.entry);
+        juce::MemoryBlock damaged(wav);
+        const auto at = find(cut.entry);
+        REQUIRE(at > 0);
+        auto* b = static_cast<unsigned char*>(damaged.getData());
+        b[at + 4] = cut.length; // little-endian length, the rest of it 0 already
+        REQUIRE(b[at + 5] == 0);
+        juce::String why;
+        CHECK(reopen(damaged, why) == nullptr);
+        INFO(why);
+        CHECK(why.contains(cut.message));
+    }
+}
