@@ -4,6 +4,7 @@
 #include "KerfEditor.h"
 #include "NumberText.h"
 #include "Response/SystemFunction.h"
+#include "XmlHazards.h"
 
 #include <cstring>
 
@@ -27,6 +28,8 @@ const juce::Identifier kEditorAnalyzerAttr{"analyzer"};
 /// Largest editor side a state may carry (the editor's own limits apply on top).
 constexpr int kEditorSideMax = 16384;
 
+constexpr juce::uint32 kXmlMagic = 0x21324356; // "VC2!", AudioProcessor::copyXmlToBinary
+
 /// Whether the XML text of a saved state (JUCE's binary wrapping: "VC2!", a 32-bit length,
 /// the text) is well-formed UTF-8 with nothing after its terminating NUL, or is no such
 /// wrapping at all (JUCE refuses that itself). JUCE 7.0.5 steps over the continuation bytes
@@ -35,7 +38,6 @@ constexpr int kEditorSideMax = 16384;
 /// past the buffer (AddressSanitizer, found by fuzzing: Tests/fuzz/regressions/plugin_state).
 bool stateTextIsSafe(const void* data, int size)
 {
-    constexpr juce::uint32 kXmlMagic = 0x21324356; // "VC2!", AudioProcessor::copyXmlToBinary
     if (size <= 8 || juce::ByteOrder::littleEndianInt(data) != kXmlMagic)
         return true;
     const auto* text = static_cast<const char*>(data) + 8;
@@ -49,6 +51,19 @@ bool stateTextIsSafe(const void* data, int size)
         if (text[i] != 0)
             return false; // more text after the NUL: JUCE's reader would go on into it
     return juce::CharPointer_UTF8::isValidString(text, textLength);
+}
+
+/// What in the XML text of a saved state JUCE's reader cannot safely read (XmlHazards.h:
+/// nesting deep enough to exhaust the stack of the thread the host restores it on, or a
+/// processing instruction inside an element, where the reader loops for good), or nullptr.
+const char* stateXmlHazard(const void* data, int size)
+{
+    if (size <= 8 || juce::ByteOrder::littleEndianInt(data) != kXmlMagic)
+        return nullptr;
+    const auto* text = static_cast<const char*>(data) + 8;
+    const int claimed = static_cast<int>(juce::ByteOrder::littleEndianInt(text - 4));
+    const int length = juce::jmin(size - 8, claimed);
+    return length > 0 ? xmlHazard(text, static_cast<std::size_t>(length)) : nullptr;
 }
 
 /// Names the first attribute of `root` (or of any element inside it) that JUCE cannot read
@@ -642,40 +657,27 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     setSlots({}, {}, CompareSlot::a);
     // The editor's size and analyzer switch: defaults unless the state holds them (below).
     restoreEditorSettings(nullptr);
-    if (!stateTextIsSafe(data, sizeInBytes))
+    // A state Kerf cannot take: say why, and start from the defaults.
+    const auto refuse = [this](const juce::String& why)
     {
-        stateProblem = "the saved state is damaged (its text is not valid UTF-8); parameters "
-                       "reset to defaults";
+        stateProblem = why + "; parameters reset to defaults";
         juce::Logger::writeToLog("Kerf: " + stateProblem);
         resetToDefaults();
-        return;
-    }
+    };
+    if (!stateTextIsSafe(data, sizeInBytes))
+        return refuse("the saved state is damaged (its text is not valid UTF-8)");
+    if (const char* hazard = stateXmlHazard(data, sizeInBytes))
+        return refuse("the saved state is damaged (" + juce::String(hazard) + ")");
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
-    {
-        stateProblem = "the saved state is not Kerf state; parameters reset to defaults";
-        juce::Logger::writeToLog("Kerf: " + stateProblem);
-        resetToDefaults();
-        return;
-    }
+        return refuse("the saved state is not Kerf state");
     if (const auto where = overflowingNumberAttribute(*xml); where.isNotEmpty())
-    {
-        stateProblem = "the saved state is damaged (" + where +
-                       " holds a number with an exponent of 10 or more digits); parameters "
-                       "reset to defaults";
-        juce::Logger::writeToLog("Kerf: " + stateProblem);
-        resetToDefaults();
-        return;
-    }
+        return refuse("the saved state is damaged (" + where +
+                      " holds a number with an exponent of 10 or more digits)");
     const int version = xml->getIntAttribute(kStateVersionAttr, 0);
     if (version > kStateVersion)
-    {
-        stateProblem = "the saved state comes from a newer Kerf (state version " +
-                       juce::String(version) + "); parameters reset to defaults";
-        juce::Logger::writeToLog("Kerf: " + stateProblem);
-        resetToDefaults();
-        return;
-    }
+        return refuse("the saved state comes from a newer Kerf (state version " +
+                      juce::String(version) + ")");
     // Parameters the saved state lacks (it came from an older Kerf) take their defaults,
     // not whatever happened to be current.
     resetToDefaults();

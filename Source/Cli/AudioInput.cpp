@@ -1,5 +1,7 @@
 #include "AudioInput.h"
 
+#include "XmlHazards.h"
+
 #include <algorithm>
 #include <cstring>
 #include <string>
@@ -37,8 +39,11 @@ juce::String printableId(const unsigned char* id)
 /// 'note' 4 bytes, 'ltxt' 20: Multimedia Programming Interface and Data Specifications 1.0,
 /// IBM and Microsoft 1991, "Associated Data List"; from memory) makes it read the whole rest
 /// of the file for that entry (5000 such entries before 2 MB of audio took 3.4 s).
-/// Returns what is wrong, or nothing. The audio data chunk may run past the end (a cut file:
-/// read up to there, then reported) and ends the walk.
+/// JUCE parses 'iXML' and 'axml' chunks as XML: an 'iXML' chunk nested 40000 deep crashed
+/// `kerf render` (the reader recurses per level), and one holding a processing instruction
+/// inside an element followed by text hung it (XmlHazards.h); both are refused. Returns what is
+/// wrong, or nothing. The audio data chunk may run past the end (a cut file: read up to there, then
+/// reported) and ends the walk.
 juce::String damagedChunk(juce::InputStream& in)
 {
     const juce::int64 total = in.getTotalLength();
@@ -85,6 +90,20 @@ juce::String damagedChunk(juce::InputStream& in)
                     problem = "its '" + juce::String(markers ? "MARK" : "COMT") + "' chunk lists " +
                               juce::String(count) + (markers ? " markers" : " comments") +
                               " where it has room for " + juce::String(room);
+                    break;
+                }
+            }
+            if (wav && (is(h, "iXML") || is(h, "axml")))
+            {
+                // JUCE parses these as XML (XmlHazards.h).
+                juce::MemoryBlock xml;
+                const char* hazard = nullptr;
+                if (in.readIntoMemoryBlock(xml, static_cast<ssize_t>(size)) == size &&
+                    (hazard = xmlHazard(static_cast<const char*>(xml.getData()), xml.getSize())) !=
+                        nullptr)
+                {
+                    problem =
+                        "its '" + printableId(h) + "' chunk holds XML with " + juce::String(hazard);
                     break;
                 }
             }
