@@ -11,6 +11,11 @@ namespace kerf::cli
 
 namespace
 {
+bool is(const unsigned char* p, const char* id)
+{
+    return std::memcmp(p, id, 4) == 0;
+}
+
 juce::String printableId(const unsigned char* id)
 {
     std::string s;
@@ -19,31 +24,90 @@ juce::String printableId(const unsigned char* id)
     return s;
 }
 
+/// An AIFF 'MARK' or 'COMT' chunk of `size` bytes (the stream just past its header) whose
+/// count of markers or comments it has no room for. JUCE 7.0.5's AIFF reader reads as many
+/// as the 16-bit count says, on past the chunk and the file's end, making strings for each
+/// (a 262-byte AIFF of twenty 'COMT' chunks that each count 65535 comments in 2 bytes took
+/// 11.5 s; found by fuzzing). Every marker takes at least 8 bytes (id 2, position 4, a name
+/// of at least its count byte and a pad byte) and so does every comment (time stamp 4,
+/// marker 2, count 2, then its text): Audio Interchange File Format 1.3, Apple Computer
+/// 1989, "Marker Chunk" and "Comments Chunk" (from memory).
+juce::String overcountedAiffChunk(juce::InputStream& in, const unsigned char* id, juce::uint32 size)
+{
+    const bool markers = is(id, "MARK");
+    unsigned char c[2] = {};
+    if (!(markers || is(id, "COMT")) || in.read(c, 2) != 2)
+        return {}; // (JUCE reads the count even where the chunk is too short to hold it)
+    const juce::uint32 count = juce::ByteOrder::bigEndianShort(c);
+    const juce::uint32 room = size >= 2 ? (size - 2) / 8 : 0;
+    if (count <= room)
+        return {};
+    return "its '" + printableId(id) + "' chunk lists " + juce::String(count) +
+           (markers ? " markers" : " comments") + " where it has room for " + juce::String(room);
+}
+
+/// A WAV 'iXML' or 'axml' chunk of `size` bytes (the stream just past its header) holding
+/// XML that JUCE's reader, which parses them, cannot safely read: one nested 40000 deep
+/// crashed `kerf render` (the reader recurses per level), one holding a processing
+/// instruction inside an element followed by text hung it (XmlHazards.h).
+juce::String unsafeXmlChunk(juce::InputStream& in, const unsigned char* id, juce::uint32 size)
+{
+    juce::MemoryBlock xml;
+    if (!(is(id, "iXML") || is(id, "axml")) ||
+        in.readIntoMemoryBlock(xml, static_cast<ssize_t>(size)) != size)
+        return {};
+    if (const char* hazard = xmlHazard(static_cast<const char*>(xml.getData()), xml.getSize()))
+        return "its '" + printableId(id) + "' chunk holds XML with " + juce::String(hazard);
+    return {};
+}
+
+/// A WAV cue list (a 'LIST' chunk of type 'adtl' at `pos`, `size` bytes, in a file of
+/// `total`) that JUCE's reader cannot walk safely. It walks the entries up to the chunk's
+/// end plus its pad byte: where that lies past the file's end, the walk stalls at the end
+/// of the file for good (a 289-byte WAV hung `kerf render`), and an entry shorter than its
+/// fixed fields ('labl' and 'note' 4 bytes, 'ltxt' 20: Multimedia Programming Interface and
+/// Data Specifications 1.0, IBM and Microsoft 1991, "Associated Data List"; from memory)
+/// makes it read the whole rest of the file for that entry (5000 such entries before 2 MB
+/// of audio took 3.4 s). The entries are walked here as JUCE walks them.
+juce::String unsafeCueList(juce::InputStream& in, juce::int64 pos, juce::uint32 size,
+                           juce::int64 total)
+{
+    unsigned char type[4] = {};
+    if (size < 4 || !in.setPosition(pos + 8) || in.read(type, 4) != 4 || !is(type, "adtl"))
+        return {};
+    const juce::int64 listEnd = pos + 8 + static_cast<juce::int64>(size) + (size & 1u);
+    for (juce::int64 at = pos + 12; at < listEnd;)
+    {
+        unsigned char e[8] = {};
+        if (at >= total)
+            return "its 'LIST' chunk runs past the end of the file";
+        if (at + 8 > total || !in.setPosition(at) || in.read(e, 8) != 8)
+        {
+            at = total; // a cut entry header: JUCE's reads stop at the end
+            continue;
+        }
+        const juce::uint32 length = juce::ByteOrder::littleEndianInt(e + 4);
+        const bool region = is(e, "ltxt");
+        const juce::uint32 least = region ? 20u : is(e, "labl") || is(e, "note") ? 4u : 0u;
+        if (length < least)
+            return "its 'LIST' chunk holds " + juce::String(region ? "an" : "a") + " '" +
+                   printableId(e) + "' entry of " + juce::String(length) +
+                   " bytes, shorter than its " + juce::String(least) + "-byte header";
+        at += 8 + static_cast<juce::int64>(length) + (length & 1u);
+    }
+    return {};
+}
+
 /// WAV (RIFF or RF64, little-endian sizes) and AIFF (FORM, big-endian) files are chunks of a
 /// four-byte id, a 32-bit size and a body padded to an even length. A chunk other than the
 /// audio data that claims more bytes than the file has left is damaged, and JUCE 7.0.5's WAV
 /// reader trusts such claims: it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
 /// walks the sample loops an 'smpl' chunk claims (a 1.6 kB file whose 'smpl' chunk claimed
 /// 544 MB kept `kerf render` busy for minutes: found by fuzzing,
-/// Tests/fuzz/regressions/audio_input). Its AIFF reader reads as many markers ('MARK') or
-/// comments ('COMT') as the chunk's 16-bit count says, on past the chunk and the file's end,
-/// making strings for each (a 262-byte AIFF of twenty 'COMT' chunks that each count 65535
-/// comments in 2 bytes took 11.5 s; found by fuzzing). Every marker takes at least 8 bytes
-/// (id 2, position 4, a name of at least its count byte and a pad byte) and so does every
-/// comment (time stamp 4, marker 2, count 2, then its text): Audio Interchange File Format
-/// 1.3, Apple Computer 1989, "Marker Chunk" and "Comments Chunk" (from memory), so a count
-/// the chunk has no room for is damaged. Its WAV reader walks the entries of a 'LIST' chunk
-/// of type 'adtl' (cue labels, notes and regions) up to the chunk's end plus its pad byte:
-/// where that lies past the file's end, the walk stalls at the end of the file for good (a
-/// 289-byte WAV hung `kerf render`), and an entry shorter than its fixed fields ('labl' and
-/// 'note' 4 bytes, 'ltxt' 20: Multimedia Programming Interface and Data Specifications 1.0,
-/// IBM and Microsoft 1991, "Associated Data List"; from memory) makes it read the whole rest
-/// of the file for that entry (5000 such entries before 2 MB of audio took 3.4 s).
-/// JUCE parses 'iXML' and 'axml' chunks as XML: an 'iXML' chunk nested 40000 deep crashed
-/// `kerf render` (the reader recurses per level), and one holding a processing instruction
-/// inside an element followed by text hung it (XmlHazards.h); both are refused. Returns what is
-/// wrong, or nothing. The audio data chunk may run past the end (a cut file: read up to there, then
-/// reported) and ends the walk.
+/// Tests/fuzz/regressions/audio_input). The chunks JUCE's readers read unsafely even within
+/// the file are checked too (the helpers above). Returns what is wrong, or nothing. The
+/// audio data chunk may run past the end (a cut file: read up to there, then reported) and
+/// ends the walk.
 juce::String damagedChunk(juce::InputStream& in)
 {
     const juce::int64 total = in.getTotalLength();
@@ -51,7 +115,6 @@ juce::String damagedChunk(juce::InputStream& in)
     juce::String problem;
     if (total >= 12 && in.setPosition(0) && in.read(head, 12) == 12)
     {
-        auto is = [](const unsigned char* p, const char* id) { return std::memcmp(p, id, 4) == 0; };
         const bool wav = (is(head, "RIFF") || is(head, "RF64")) && is(head + 8, "WAVE");
         const bool aiff = is(head, "FORM") && (is(head + 8, "AIFF") || is(head + 8, "AIFC"));
         // Chunks past the end the header declares are not read (by JUCE either).
@@ -60,7 +123,7 @@ juce::String damagedChunk(juce::InputStream& in)
         const juce::int64 end = declared == 0 || declared == 0xffffffffu
                                     ? total
                                     : std::min(total, 8 + static_cast<juce::int64>(declared));
-        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end;)
+        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end && problem.isEmpty();)
         {
             unsigned char h[8] = {};
             if (!in.setPosition(pos) || in.read(h, 8) != 8)
@@ -71,71 +134,17 @@ juce::String damagedChunk(juce::InputStream& in)
             if (static_cast<juce::int64>(size) > left)
             {
                 if (!(wav ? is(h, "data") : is(h, "SSND")))
-                {
                     problem = "its '" + printableId(h) + "' chunk claims " +
                               juce::String(static_cast<juce::int64>(size)) +
                               " bytes where the file has " + juce::String(left) + " left";
-                }
                 break;
             }
-            const bool markers = aiff && is(h, "MARK"), comments = aiff && is(h, "COMT");
-            unsigned char c[2] = {}, c4[4] = {};
-            // JUCE reads the count even where the chunk is too short to hold it.
-            if ((markers || comments) && in.read(c, 2) == 2)
-            {
-                const juce::uint32 count = juce::ByteOrder::bigEndianShort(c);
-                const juce::uint32 room = size >= 2 ? (size - 2) / 8 : 0;
-                if (count > room)
-                {
-                    problem = "its '" + juce::String(markers ? "MARK" : "COMT") + "' chunk lists " +
-                              juce::String(count) + (markers ? " markers" : " comments") +
-                              " where it has room for " + juce::String(room);
-                    break;
-                }
-            }
-            if (wav && (is(h, "iXML") || is(h, "axml")))
-            {
-                // JUCE parses these as XML (XmlHazards.h).
-                juce::MemoryBlock xml;
-                const char* hazard = nullptr;
-                if (in.readIntoMemoryBlock(xml, static_cast<ssize_t>(size)) == size &&
-                    (hazard = xmlHazard(static_cast<const char*>(xml.getData()), xml.getSize())) !=
-                        nullptr)
-                {
-                    problem =
-                        "its '" + printableId(h) + "' chunk holds XML with " + juce::String(hazard);
-                    break;
-                }
-            }
-            if (wav && is(h, "LIST") && size >= 4 && in.read(c4, 4) == 4 && is(c4, "adtl"))
-            {
-                // JUCE's walk of the entries, entry by entry, as it moves.
-                const juce::int64 listEnd = pos + 8 + static_cast<juce::int64>(size) + (size & 1u);
-                for (juce::int64 at = pos + 12; at < listEnd && problem.isEmpty();)
-                {
-                    unsigned char e[8] = {};
-                    if (at >= total)
-                        problem = "its 'LIST' chunk runs past the end of the file";
-                    else if (at + 8 > total || !in.setPosition(at) || in.read(e, 8) != 8)
-                        at = total; // a cut entry header: JUCE's reads stop at the end
-                    else
-                    {
-                        const juce::uint32 length = juce::ByteOrder::littleEndianInt(e + 4);
-                        const juce::uint32 least = is(e, "ltxt")                    ? 20u
-                                                   : is(e, "labl") || is(e, "note") ? 4u
-                                                                                    : 0u;
-                        if (length < least)
-                            problem = "its 'LIST' chunk holds " +
-                                      juce::String(is(e, "ltxt") ? "an" : "a") + " '" +
-                                      printableId(e) + "' entry of " + juce::String(length) +
-                                      " bytes, shorter than its " + juce::String(least) +
-                                      "-byte header";
-                        at += 8 + static_cast<juce::int64>(length) + (length & 1u);
-                    }
-                }
-                if (problem.isNotEmpty())
-                    break;
-            }
+            if (aiff)
+                problem = overcountedAiffChunk(in, h, size);
+            else if (is(h, "LIST"))
+                problem = unsafeCueList(in, pos, size, total);
+            else
+                problem = unsafeXmlChunk(in, h, size);
             pos += 8 + static_cast<juce::int64>(size) + (size & 1u);
         }
     }

@@ -22,7 +22,8 @@ namespace
 /// recursion; 0 when it reads no element.
 int juceDepth(const std::string& text)
 {
-    const auto root = juce::parseXML(juce::String::fromUTF8(text.data(), (int)text.size()));
+    const auto root =
+        juce::parseXML(juce::String::fromUTF8(text.data(), static_cast<int>(text.size())));
     if (root == nullptr)
         return 0;
     int deepest = 0;
