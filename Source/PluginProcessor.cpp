@@ -4,7 +4,7 @@
 #include "KerfEditor.h"
 #include "NumberText.h"
 #include "Response/SystemFunction.h"
-#include "XmlHazards.h"
+#include "StrictXml.h"
 
 #include <cstring>
 
@@ -53,17 +53,18 @@ bool stateTextIsSafe(const void* data, int size)
     return juce::CharPointer_UTF8::isValidString(text, textLength);
 }
 
-/// What in the XML text of a saved state JUCE's reader cannot safely read (XmlHazards.h:
-/// nesting deep enough to exhaust the stack of the thread the host restores it on, or a
-/// processing instruction inside an element, where the reader loops for good), or nullptr.
-const char* stateXmlHazard(const void* data, int size)
+/// Why the XML text of a saved state is not of the plain form Kerf writes (StrictXml.h),
+/// or nothing: JUCE's reader recurses once per level of nesting and loops for good on some
+/// lenient texts, so only plain XML reaches it. Where the wrapping is not JUCE's, JUCE reads
+/// nothing (and the state is refused as not Kerf's).
+std::string stateXmlProblem(const void* data, int size)
 {
     if (size <= 8 || juce::ByteOrder::littleEndianInt(data) != kXmlMagic)
-        return nullptr;
+        return {};
     const auto* text = static_cast<const char*>(data) + 8;
     const int claimed = static_cast<int>(juce::ByteOrder::littleEndianInt(text - 4));
     const int length = juce::jmin(size - 8, claimed);
-    return length > 0 ? xmlHazard(text, static_cast<std::size_t>(length)) : nullptr;
+    return length > 0 ? plainXmlProblem(text, static_cast<std::size_t>(length)) : std::string();
 }
 
 /// Names the first attribute of `root` (or of any element inside it) that JUCE cannot read
@@ -666,8 +667,8 @@ void KerfProcessor::setStateInformation(const void* data, int sizeInBytes)
     };
     if (!stateTextIsSafe(data, sizeInBytes))
         return refuse("the saved state is damaged (its text is not valid UTF-8)");
-    if (const char* hazard = stateXmlHazard(data, sizeInBytes))
-        return refuse("the saved state is damaged (" + juce::String(hazard) + ")");
+    if (const auto problem = stateXmlProblem(data, sizeInBytes); !problem.empty())
+        return refuse("the saved state is damaged (its XML has " + juce::String(problem) + ")");
     const auto xml = getXmlFromBinary(data, sizeInBytes);
     if (xml == nullptr || !xml->hasTagName(kStateTag))
         return refuse("the saved state is not Kerf state");

@@ -1,10 +1,9 @@
 #include "AudioInput.h"
 
-#include "XmlHazards.h"
-
 #include <algorithm>
 #include <cstring>
 #include <string>
+#include <vector>
 
 namespace kerf::cli
 {
@@ -16,103 +15,39 @@ bool is(const unsigned char* p, const char* id)
     return std::memcmp(p, id, 4) == 0;
 }
 
-juce::String printableId(const unsigned char* id)
+/// The chunks of a WAV (RIFF or RF64) or AIFF file, walked as JUCE 7.0.5's readers walk them:
+/// what is damaged, and where the ids of the chunks to hide from JUCE lie.
+struct ChunkWalk
 {
-    std::string s;
-    for (int i = 0; i < 4; ++i)
-        s += id[i] >= 32 && id[i] < 127 ? static_cast<char>(id[i]) : '?';
-    return s;
-}
-
-/// An AIFF 'MARK' or 'COMT' chunk of `size` bytes (the stream just past its header) whose
-/// count of markers or comments it has no room for. JUCE 7.0.5's AIFF reader reads as many
-/// as the 16-bit count says, on past the chunk and the file's end, making strings for each
-/// (a 262-byte AIFF of twenty 'COMT' chunks that each count 65535 comments in 2 bytes took
-/// 11.5 s; found by fuzzing). Every marker takes at least 8 bytes (id 2, position 4, a name
-/// of at least its count byte and a pad byte) and so does every comment (time stamp 4,
-/// marker 2, count 2, then its text): Audio Interchange File Format 1.3, Apple Computer
-/// 1989, "Marker Chunk" and "Comments Chunk" (from memory).
-juce::String overcountedAiffChunk(juce::InputStream& in, const unsigned char* id, juce::uint32 size)
-{
-    const bool markers = is(id, "MARK");
-    unsigned char c[2] = {};
-    if (!(markers || is(id, "COMT")) || in.read(c, 2) != 2)
-        return {}; // (JUCE reads the count even where the chunk is too short to hold it)
-    const juce::uint32 count = juce::ByteOrder::bigEndianShort(c);
-    const juce::uint32 room = size >= 2 ? (size - 2) / 8 : 0;
-    if (count <= room)
-        return {};
-    return "its '" + printableId(id) + "' chunk lists " + juce::String(count) +
-           (markers ? " markers" : " comments") + " where it has room for " + juce::String(room);
-}
-
-/// A WAV 'iXML' or 'axml' chunk of `size` bytes (the stream just past its header) holding
-/// XML that JUCE's reader, which parses them, cannot safely read: one nested 40000 deep
-/// crashed `kerf render` (the reader recurses per level), one holding a processing
-/// instruction inside an element followed by text hung it (XmlHazards.h).
-juce::String unsafeXmlChunk(juce::InputStream& in, const unsigned char* id, juce::uint32 size)
-{
-    juce::MemoryBlock xml;
-    if (!(is(id, "iXML") || is(id, "axml")) ||
-        in.readIntoMemoryBlock(xml, static_cast<ssize_t>(size)) != size)
-        return {};
-    if (const char* hazard = xmlHazard(static_cast<const char*>(xml.getData()), xml.getSize()))
-        return "its '" + printableId(id) + "' chunk holds XML with " + juce::String(hazard);
-    return {};
-}
-
-/// A WAV cue list (a 'LIST' chunk of type 'adtl' at `pos`, `size` bytes, in a file of
-/// `total`) that JUCE's reader cannot walk safely. It walks the entries up to the chunk's
-/// end plus its pad byte: where that lies past the file's end, the walk stalls at the end
-/// of the file for good (a 289-byte WAV hung `kerf render`), and an entry shorter than its
-/// fixed fields ('labl' and 'note' 4 bytes, 'ltxt' 20: Multimedia Programming Interface and
-/// Data Specifications 1.0, IBM and Microsoft 1991, "Associated Data List"; from memory)
-/// makes it read the whole rest of the file for that entry (5000 such entries before 2 MB
-/// of audio took 3.4 s). The entries are walked here as JUCE walks them.
-juce::String unsafeCueList(juce::InputStream& in, juce::int64 pos, juce::uint32 size,
-                           juce::int64 total)
-{
-    unsigned char type[4] = {};
-    if (size < 4 || !in.setPosition(pos + 8) || in.read(type, 4) != 4 || !is(type, "adtl"))
-        return {};
-    const juce::int64 listEnd = pos + 8 + static_cast<juce::int64>(size) + (size & 1u);
-    for (juce::int64 at = pos + 12; at < listEnd;)
-    {
-        unsigned char e[8] = {};
-        if (at >= total)
-            return "its 'LIST' chunk runs past the end of the file";
-        if (at + 8 > total || !in.setPosition(at) || in.read(e, 8) != 8)
-        {
-            at = total; // a cut entry header: JUCE's reads stop at the end
-            continue;
-        }
-        const juce::uint32 length = juce::ByteOrder::littleEndianInt(e + 4);
-        const bool region = is(e, "ltxt");
-        const juce::uint32 least = region ? 20u : is(e, "labl") || is(e, "note") ? 4u : 0u;
-        if (length < least)
-            return "its 'LIST' chunk holds " + juce::String(region ? "an" : "a") + " '" +
-                   printableId(e) + "' entry of " + juce::String(length) +
-                   " bytes, shorter than its " + juce::String(least) + "-byte header";
-        at += 8 + static_cast<juce::int64>(length) + (length & 1u);
-    }
-    return {};
-}
+    juce::String problem;              // empty when the walk found nothing wrong
+    std::vector<juce::int64> metadata; // offsets of metadata chunks' ids, ascending
+};
 
 /// WAV (RIFF or RF64, little-endian sizes) and AIFF (FORM, big-endian) files are chunks of a
 /// four-byte id, a 32-bit size and a body padded to an even length. A chunk other than the
-/// audio data that claims more bytes than the file has left is damaged, and JUCE 7.0.5's WAV
-/// reader trusts such claims: it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
-/// walks the sample loops an 'smpl' chunk claims (a 1.6 kB file whose 'smpl' chunk claimed
-/// 544 MB kept `kerf render` busy for minutes: found by fuzzing,
-/// Tests/fuzz/regressions/audio_input). The chunks JUCE's readers read unsafely even within
-/// the file are checked too (the helpers above). Returns what is wrong, or nothing. The
-/// audio data chunk may run past the end (a cut file: read up to there, then reported) and
-/// ends the walk.
-juce::String damagedChunk(juce::InputStream& in)
+/// audio data that claims more bytes than the file has left is damaged: JUCE 7.0.5's WAV
+/// reader trusts such claims (it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
+/// walks the sample loops an 'smpl' chunk claims: a 1.6 kB file whose 'smpl' chunk claimed
+/// 544 MB kept `kerf render` busy for minutes; found by fuzzing,
+/// Tests/fuzz/regressions/audio_input). The audio data chunk may run past the end (a cut
+/// file: read up to there, then reported) and ends the walk.
+///
+/// Every chunk but those that describe and hold the audio (WAV 'fmt ', 'data', 'ds64';
+/// AIFF 'COMM', 'SSND', 'FVER') is metadata, which Kerf does not use and JUCE's readers
+/// parse without care: AIFF marker and comment counts read on past their chunk and the
+/// file (twenty 'COMT' chunks counting 65535 comments each in 262 bytes took 11.5 s), a WAV
+/// cue list ('LIST' of type 'adtl') whose pad byte the file lacks stalled the reader for
+/// good and one with short entries read the rest of the file for each, 'iXML' and 'axml'
+/// chunks go to an XML reader that recurses per level of nesting (40000 levels crashed) and
+/// loops for good on some texts, and an AIFF 'cate' chunk shorter than its tags was read
+/// past its buffer (AddressSanitizer; found by fuzzing with a dictionary of chunk ids). So
+/// their ids are hidden from JUCE (read as 'JUNK', a chunk both readers skip) rather than
+/// judged one by one, and the audio of a file with odd metadata still opens.
+ChunkWalk walkChunks(juce::InputStream& in)
 {
+    ChunkWalk walk;
     const juce::int64 total = in.getTotalLength();
     unsigned char head[12] = {};
-    juce::String problem;
     if (total >= 12 && in.setPosition(0) && in.read(head, 12) == 12)
     {
         const bool wav = (is(head, "RIFF") || is(head, "RF64")) && is(head + 8, "WAVE");
@@ -123,48 +58,63 @@ juce::String damagedChunk(juce::InputStream& in)
         const juce::int64 end = declared == 0 || declared == 0xffffffffu
                                     ? total
                                     : std::min(total, 8 + static_cast<juce::int64>(declared));
-        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end && problem.isEmpty();)
+        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end;)
         {
             unsigned char h[8] = {};
             if (!in.setPosition(pos) || in.read(h, 8) != 8)
                 break;
+            const bool audio = wav ? is(h, "fmt ") || is(h, "data") || is(h, "ds64")
+                                   : is(h, "COMM") || is(h, "SSND") || is(h, "FVER");
+            if (!audio)
+                walk.metadata.push_back(pos);
             const juce::uint32 size = wav ? juce::ByteOrder::littleEndianInt(h + 4)
                                           : juce::ByteOrder::bigEndianInt(h + 4);
             const juce::int64 left = total - pos - 8;
             if (static_cast<juce::int64>(size) > left)
             {
                 if (!(wav ? is(h, "data") : is(h, "SSND")))
-                    problem = "its '" + printableId(h) + "' chunk claims " +
-                              juce::String(static_cast<juce::int64>(size)) +
-                              " bytes where the file has " + juce::String(left) + " left";
+                {
+                    std::string id;
+                    for (int i = 0; i < 4; ++i)
+                        id += h[i] >= 32 && h[i] < 127 ? static_cast<char>(h[i]) : '?';
+                    walk.problem = "its '" + juce::String(id) + "' chunk claims " +
+                                   juce::String(static_cast<juce::int64>(size)) +
+                                   " bytes where the file has " + juce::String(left) + " left";
+                }
                 break;
             }
-            if (aiff)
-                problem = overcountedAiffChunk(in, h, size);
-            else if (is(h, "LIST"))
-                problem = unsafeCueList(in, pos, size, total);
-            else
-                problem = unsafeXmlChunk(in, h, size);
             pos += 8 + static_cast<juce::int64>(size) + (size & 1u);
         }
     }
     in.setPosition(0);
-    return problem;
+    return walk;
 }
 } // namespace
 
-/// Wraps a file stream and remembers whether a read came up short.
+/// Wraps a file stream: remembers whether a read came up short, and shows the ids of the
+/// metadata chunks listed in `hidden` as 'JUNK' (walkChunks).
 class AudioInput::ShortReadDetector : public juce::InputStream
 {
 public:
-    explicit ShortReadDetector(std::unique_ptr<juce::InputStream> s) : inner(std::move(s)) {}
+    ShortReadDetector(std::unique_ptr<juce::InputStream> s, std::vector<juce::int64> hiddenIds)
+        : inner(std::move(s)), hidden(std::move(hiddenIds))
+    {
+    }
     juce::int64 getTotalLength() override { return inner->getTotalLength(); }
     bool isExhausted() override { return inner->isExhausted(); }
     int read(void* dest, int n) override
     {
+        const juce::int64 from = inner->getPosition();
         const int got = inner->read(dest, n);
         if (armed && got < n)
             shortRead = true;
+        // Ids that overlap [from, from + got).
+        auto* bytes = static_cast<char*>(dest);
+        for (auto it = std::lower_bound(hidden.begin(), hidden.end(), from - 3);
+             it != hidden.end() && *it < from + got; ++it)
+            for (juce::int64 k = std::max<juce::int64>(*it, from);
+                 k < std::min<juce::int64>(*it + 4, from + got); ++k)
+                bytes[k - from] = "JUNK"[k - *it];
         return got;
     }
     juce::int64 getPosition() override { return inner->getPosition(); }
@@ -175,6 +125,7 @@ public:
 
 private:
     std::unique_ptr<juce::InputStream> inner;
+    std::vector<juce::int64> hidden;
 };
 
 std::unique_ptr<AudioInput> AudioInput::open(const juce::File& file, juce::String& error)
@@ -204,14 +155,15 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
 {
     juce::AudioFormatManager formats;
     formats.registerBasicFormats();
-    if (const auto problem = damagedChunk(*stream); problem.isNotEmpty())
+    auto walk = walkChunks(*stream);
+    if (walk.problem.isNotEmpty())
     {
-        error = "input " + name + " is not a readable WAV, AIFF or FLAC file (damaged: " + problem +
-                ")";
+        error = "input " + name +
+                " is not a readable WAV, AIFF or FLAC file (damaged: " + walk.problem + ")";
         return nullptr;
     }
     auto input = std::unique_ptr<AudioInput>(new AudioInput());
-    input->detector_ = new ShortReadDetector(std::move(stream));
+    input->detector_ = new ShortReadDetector(std::move(stream), std::move(walk.metadata));
     input->reader_.reset(
         formats.createReaderFor(std::unique_ptr<juce::InputStream>(input->detector_)));
     if (input->reader_ == nullptr)
