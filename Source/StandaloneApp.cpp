@@ -6,6 +6,7 @@
 // Ctrl+Z and Ctrl+Shift+Z undo and redo. `--screenshot PATH` writes a PNG of the window once
 // it is on screen and quits (the Xvfb test's artefact).
 #include "PluginProcessor.h"
+#include "UserPresets.h"
 
 #include <juce_audio_utils/juce_audio_utils.h>
 
@@ -83,6 +84,8 @@ public:
         // $XDG_CONFIG_HOME/kerf/Kerf.settings (beside the user presets); an absolute
         // folder name is used as it is.
         options.folderName = kerfConfigFolder().getFullPathName();
+        if (const auto note = setAsideUnplainSettings(options.getDefaultFile()); note.isNotEmpty())
+            std::fprintf(stderr, "%s\n", note.toRawUTF8());
         appProperties.setStorageParameters(options);
     }
 

@@ -1,5 +1,7 @@
 #include "UserPresets.h"
 
+#include "StrictXml.h"
+
 #include <algorithm>
 
 namespace kerf
@@ -46,6 +48,30 @@ juce::File kerfConfigFolder()
             ? juce::File(xdg)
             : juce::File::getSpecialLocation(juce::File::userHomeDirectory).getChildFile(".config");
     return base.getChildFile("kerf");
+}
+
+juce::String setAsideUnplainSettings(const juce::File& settings)
+{
+    juce::MemoryBlock data;
+    if (!settings.existsAsFile() || !settings.loadFileAsData(data))
+        return {};
+    const auto* text = static_cast<const char*>(data.getData());
+    std::size_t start = 0;
+    while (start < data.getSize() && juce::CharacterFunctions::isWhitespace(text[start]))
+        ++start;
+    if (start == data.getSize() || text[start] != '<')
+        return {}; // empty, or JUCE's binary form
+    const auto problem = plainXmlProblem(text, data.getSize());
+    if (problem.empty())
+        return {};
+    const auto aside = settings.getSiblingFile(settings.getFileName() + ".damaged");
+    if (!settings.moveFileTo(aside))
+        return "Kerf: the settings file " + settings.getFullPathName() +
+               " is damaged (its XML has " + juce::String(problem) +
+               ") and could not be moved aside";
+    return "Kerf: the settings file " + settings.getFullPathName() + " was damaged (its XML has " +
+           juce::String(problem) + "); moved to " + aside.getFullPathName() +
+           ", starting with fresh settings";
 }
 
 juce::File UserPresetFolder::defaultFolder()

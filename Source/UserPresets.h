@@ -11,6 +11,13 @@ namespace kerf
 /// Specification 0.8). User presets and the standalone app's settings live here.
 juce::File kerfConfigFolder();
 
+/// The standalone app's settings file is read at every start by JUCE's lenient XML reader,
+/// which recurses once per level of nesting and loops for good on some texts (StrictXml.h).
+/// A settings file in XML that is not plain is renamed to "<its name>.damaged" (replacing an
+/// older one), so the app starts with fresh settings instead of hanging or crashing at every
+/// start; returns a line saying so, or nothing. JUCE's binary settings formats are left alone.
+juce::String setAsideUnplainSettings(const juce::File& settings);
+
 /// One user preset: the name stored in its chain file, and the file.
 struct UserPreset
 {

@@ -5,6 +5,7 @@
 #include "Parameters.h"
 #include "PluginProcessor.h"
 #include "StrictXml.h"
+#include "UserPresets.h"
 
 #include <catch2/catch.hpp>
 
@@ -245,4 +246,47 @@ TEST_CASE("plugin: a saved state whose XML is not plain is refused", "[plugin][x
     CHECK(q.lastStateProblem().isEmpty());
     CHECK(q.state().getRawParameterValue(ids::slotGain(2))->load() ==
           p.state().getRawParameterValue(ids::slotGain(2))->load());
+}
+
+TEST_CASE("standalone: a settings file whose XML is not plain is set aside", "[xml]")
+{
+    // JUCE's PropertiesFile reads the standalone app's settings at every start with the same
+    // lenient reader: a damaged file would hang or crash every start.
+    juce::ScopedJuceInitialiser_GUI init;
+    const auto dir = juce::File::getSpecialLocation(juce::File::tempDirectory)
+                         .getNonexistentChildFile("kerf-settings-test", "", false);
+    REQUIRE(dir.createDirectory());
+    juce::PropertiesFile::Options options;
+    options.applicationName = "Kerf";
+    options.filenameSuffix = ".settings";
+    options.folderName = dir.getFullPathName();
+    const auto file = options.getDefaultFile();
+    {
+        // As JUCE writes it (a general-purpose library): kept as it is.
+        juce::PropertiesFile written(options);
+        written.setValue("shouldMuteInput", false);
+        written.setValue("filterState", "AAAA+/==");
+        REQUIRE(written.saveIfNeeded());
+    }
+    REQUIRE(file.existsAsFile());
+    const auto before = file.loadFileAsString();
+    CHECK(setAsideUnplainSettings(file).isEmpty());
+    CHECK(file.loadFileAsString() == before);
+    // Damaged: set aside, so JUCE starts from fresh settings.
+    const auto aside = file.getSiblingFile(file.getFileName() + ".damaged");
+    for (const std::string& damaged :
+         {std::string("<?xml version=\"1.0\"?>\n<PROPERTIES><?x?>t</PROPERTIES>"),
+          std::string(5000, '<')})
+    {
+        REQUIRE(file.replaceWithData(damaged.data(), damaged.size()));
+        const auto note = setAsideUnplainSettings(file);
+        INFO(note);
+        CHECK(note.contains("moved to " + aside.getFullPathName()));
+        CHECK_FALSE(file.exists());
+        CHECK(aside.loadFileAsString().toStdString() == damaged);
+        juce::PropertiesFile fresh(options); // what the app then reads: nothing, at once
+        CHECK_FALSE(fresh.containsKey("shouldMuteInput"));
+    }
+    CHECK(setAsideUnplainSettings(file).isEmpty()); // no file: nothing to do
+    dir.deleteRecursively();
 }
