@@ -25,11 +25,11 @@ struct ChunkWalk
 
 /// WAV (RIFF or RF64, little-endian sizes) and AIFF (FORM, big-endian) files are chunks of a
 /// four-byte id, a 32-bit size and a body padded to an even length. A chunk other than the
-/// audio data that claims more bytes than the file has left is damaged: JUCE 7.0.5's WAV
-/// reader trusts such claims (it allocates what an 'smpl', 'bext' or 'inst' chunk claims and
-/// walks the sample loops an 'smpl' chunk claims: a 1.6 kB file whose 'smpl' chunk claimed
-/// 544 MB kept `kerf render` busy for minutes; found by fuzzing,
-/// Tests/fuzz/regressions/audio_input). The audio data chunk may run past the end (a cut
+/// audio data that claims more bytes than the file has left is damaged (the file was cut or
+/// overwritten there) and refused with a message saying so. (Before metadata was hidden
+/// from it, below, JUCE 7.0.5's WAV reader trusted such claims: a 1.6 kB file whose 'smpl'
+/// chunk claimed 544 MB kept `kerf render` busy for minutes; found by fuzzing,
+/// Tests/fuzz/regressions/audio_input.) The audio data chunk may run past the end (a cut
 /// file: read up to there, then reported) and ends the walk.
 ///
 /// Every chunk but those that describe and hold the audio (WAV 'fmt ', 'data', 'ds64';
@@ -93,10 +93,10 @@ ChunkWalk walkChunks(juce::InputStream& in)
 
 /// Wraps a file stream: remembers whether a read came up short, and shows the ids of the
 /// metadata chunks listed in `hidden` as 'JUNK' (walkChunks).
-class AudioInput::ShortReadDetector : public juce::InputStream
+class AudioInput::GuardedStream : public juce::InputStream
 {
 public:
-    ShortReadDetector(std::unique_ptr<juce::InputStream> s, std::vector<juce::int64> hiddenIds)
+    GuardedStream(std::unique_ptr<juce::InputStream> s, std::vector<juce::int64> hiddenIds)
         : inner(std::move(s)), hidden(std::move(hiddenIds))
     {
     }
@@ -163,9 +163,9 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
         return nullptr;
     }
     auto input = std::unique_ptr<AudioInput>(new AudioInput());
-    input->detector_ = new ShortReadDetector(std::move(stream), std::move(walk.metadata));
+    input->stream_ = new GuardedStream(std::move(stream), std::move(walk.metadata));
     input->reader_.reset(
-        formats.createReaderFor(std::unique_ptr<juce::InputStream>(input->detector_)));
+        formats.createReaderFor(std::unique_ptr<juce::InputStream>(input->stream_)));
     if (input->reader_ == nullptr)
     {
         error =
@@ -175,7 +175,7 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
     // Uncompressed formats read exactly what the header promises; a short read means the
     // file was cut. (Compressed decoders legitimately read past the end in chunks.)
     const juce::String formatName = input->reader_->getFormatName();
-    input->detector_->armed =
+    input->stream_->armed =
         formatName.containsIgnoreCase("WAV") || formatName.containsIgnoreCase("AIFF");
     const auto& r = *input->reader_;
     if (r.sampleRate <= 0 || r.numChannels == 0 || r.lengthInSamples < 0)
@@ -188,7 +188,7 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
     // 5760-byte buffer that must hold one frame: a 41-byte AIFF claiming 11800-bit samples
     // made readSamples loop forever (found by fuzzing: Tests/fuzz/regressions/audio_input).
     const auto bits = r.bitsPerSample;
-    if (input->detector_->armed && bits != 8 && bits != 16 && bits != 24 && bits != 32)
+    if (input->stream_->armed && bits != 8 && bits != 16 && bits != 24 && bits != 32)
     {
         error = "input " + name + " is not a readable WAV, AIFF or FLAC file (" +
                 juce::String(bits) + "-bit samples)";
@@ -198,7 +198,7 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
     // subframe header, the CRC-16 footer: FLAC format, IETF RFC 9639, section 9; from
     // memory) and holds at most 65535 samples per channel, so a header that claims more than
     // the file's size allows is damaged; JUCE's reader would decode silence for all of it.
-    const juce::int64 bytes = input->detector_->getTotalLength();
+    const juce::int64 bytes = input->stream_->getTotalLength();
     if (formatName.containsIgnoreCase("FLAC") && bytes > 0 &&
         r.lengthInSamples > (bytes / 8 + 1) * 65535)
     {
@@ -218,7 +218,7 @@ std::unique_ptr<AudioInput> AudioInput::open(std::unique_ptr<juce::InputStream> 
 
 bool AudioInput::truncated() const noexcept
 {
-    return detector_->shortRead;
+    return stream_->shortRead;
 }
 
 bool AudioInput::read(juce::AudioBuffer<float>& buffer, int n, juce::int64 start)

@@ -33,9 +33,9 @@ public:
     bool read(juce::AudioBuffer<float>& buffer, int n, juce::int64 start);
 
 private:
-    class ShortReadDetector;
+    class GuardedStream;
     std::unique_ptr<juce::AudioFormatReader> reader_;
-    ShortReadDetector* detector_ = nullptr; // owned by reader_
+    GuardedStream* stream_ = nullptr; // owned by reader_
 };
 
 } // namespace kerf::cli
