@@ -24,14 +24,14 @@ constexpr int kMaxXmlNesting = 256;
 /// fuzzed state found a way to it past a looser check). So the text is checked first,
 /// without recursion, against a strict subset of XML 1.0 (W3C Recommendation, 5th edition,
 /// 2008: well-formed, no document type declaration, no processing instruction but the XML
-/// declaration at the very start, only the predefined and numeric character references):
-/// optional declaration, comments and white space, one root element, then comments and
-/// white space. Elements: an ASCII name ([A-Za-z_:][A-Za-z0-9_:.-]*), attributes as
-/// name="value" or name='value' separated by white space (values without '<'), content of
-/// text, references, CDATA sections, comments and elements, closed by an end tag of the
-/// same name; at most `maxDepth` levels. JUCE reads such text as XML 1.0 does, so what
-/// passes cannot take its reader deeper than `maxDepth` or into the loop. `deepest`, if
-/// given, receives the nesting of an accepted text.
+/// declaration at the very start, only the predefined references and character references
+/// to characters XML allows), in this order: an optional declaration, comments and white
+/// space, one root element, then comments and white space. Elements: an ASCII name
+/// ([A-Za-z_:][A-Za-z0-9_:.-]*), attributes as name="value" or name='value' separated by white
+/// space (values without '<'), content of text, references, CDATA sections, comments and elements,
+/// closed by an end tag of the same name; at most `maxDepth` levels. JUCE reads such text as
+/// XML 1.0 does, so what passes cannot take its reader deeper than `maxDepth` or into the loop.
+/// `deepest`, if given, receives the nesting of an accepted text.
 inline std::string plainXmlProblem(const char* text, std::size_t length,
                                    int maxDepth = kMaxXmlNesting, int* deepest = nullptr)
 {
@@ -82,15 +82,33 @@ inline std::string plainXmlProblem(const char* text, std::size_t length,
             }
         if (!startsWith("&#"))
             return false;
+        // A character reference must name a character XML allows (XML 1.0, 2.2 and 4.1):
+        // JUCE's reader writes whatever number it reads as a character, and past U+10FFFF
+        // that is not UTF-8 (its lead byte announces more bytes than follow).
         i += 2;
         const bool hex = at(i) == 'x';
         i += hex ? 1 : 0;
+        unsigned long code = 0;
         std::size_t digits = 0;
-        for (char c = at(i);
-             (c >= '0' && c <= '9') || (hex && ((c >= 'a' && c <= 'f') || (c >= 'A' && c <= 'F')));
-             c = at(++i))
-            ++digits;
-        if (digits == 0 || digits > 8 || at(i) != ';')
+        for (char c = at(i);; c = at(++i))
+        {
+            int v = -1;
+            if (c >= '0' && c <= '9')
+                v = c - '0';
+            else if (hex && c >= 'a' && c <= 'f')
+                v = c - 'a' + 10;
+            else if (hex && c >= 'A' && c <= 'F')
+                v = c - 'A' + 10;
+            if (v < 0)
+                break;
+            if (++digits > 8)
+                return false;
+            code = code * (hex ? 16 : 10) + static_cast<unsigned long>(v);
+        }
+        const bool allowed =
+            code == 0x9 || code == 0xA || code == 0xD || (code >= 0x20 && code <= 0xD7FF) ||
+            (code >= 0xE000 && code <= 0xFFFD) || (code >= 0x10000 && code <= 0x10FFFF);
+        if (digits == 0 || !allowed || at(i) != ';')
             return false;
         ++i;
         return true;
