@@ -25,7 +25,7 @@ constexpr int kMaxXmlNesting = 256;
 /// without recursion, against a strict subset of XML 1.0 (W3C Recommendation, 5th edition,
 /// 2008: well-formed, no document type declaration, no processing instruction but the XML
 /// declaration at the very start, only the predefined references and character references
-/// to characters XML allows), in this order: an optional declaration, comments and white
+/// to Unicode scalar values), in this order: an optional declaration, comments and white
 /// space, one root element, then comments and white space. Elements: an ASCII name
 /// ([A-Za-z_:][A-Za-z0-9_:.-]*), attributes as name="value" or name='value' separated by white
 /// space (values without '<'), content of text, references, CDATA sections, comments and elements,
@@ -82,9 +82,12 @@ inline std::string plainXmlProblem(const char* text, std::size_t length,
             }
         if (!startsWith("&#"))
             return false;
-        // A character reference must name a character XML allows (XML 1.0, 2.2 and 4.1):
-        // JUCE's reader writes whatever number it reads as a character, and past U+10FFFF
-        // that is not UTF-8 (its lead byte announces more bytes than follow).
+        // A character reference must name a Unicode scalar value (U+0001 - U+10FFFF, no
+        // surrogates): JUCE's reader writes whatever number it reads as a character, and
+        // past U+10FFFF that is not UTF-8 (a lead byte announcing more bytes than follow).
+        // JUCE's writer uses such references for every character it does not print as it
+        // is, control characters included (which XML 1.0, 2.2, would not allow), so they
+        // must read back.
         i += 2;
         const bool hex = at(i) == 'x';
         i += hex ? 1 : 0;
@@ -105,9 +108,7 @@ inline std::string plainXmlProblem(const char* text, std::size_t length,
                 return false;
             code = code * (hex ? 16 : 10) + static_cast<unsigned long>(v);
         }
-        const bool allowed =
-            code == 0x9 || code == 0xA || code == 0xD || (code >= 0x20 && code <= 0xD7FF) ||
-            (code >= 0xE000 && code <= 0xFFFD) || (code >= 0x10000 && code <= 0x10FFFF);
+        const bool allowed = code >= 1 && code <= 0x10FFFF && !(code >= 0xD800 && code <= 0xDFFF);
         if (digits == 0 || !allowed || at(i) != ';')
             return false;
         ++i;

@@ -148,12 +148,11 @@ TEST_CASE("plain xml: what XML 1.0 or JUCE's reader cannot take is refused", "[x
     for (const char* text :
          {"", "   ", "<a>", "<a></b>", "<a/><b/>", "<a/>text", "<a b=1/>", "<a b=\"<\"/>",
           "<a b=\"1\"c=\"2\"/>", "<a>&bogus;</a>", "<a>&#;</a>", "<a>&#x12345678901;</a>",
-          // Character references to what is no XML character (2.2): JUCE's reader would write
-          // a lead byte announcing more bytes than follow (&#xFFFFFFFF;).
+          // Character references to no Unicode scalar value: JUCE's reader would write a lead
+          // byte announcing more bytes than follow (&#xFFFFFFFF;).
           "<a b=\"&#xFFFFFFFF;\"/>", "<a>&#x110000;</a>", "<a>&#0;</a>", "<a>&#xD800;</a>",
-          "<a>&#xFFFE;</a>", "<a><!-- open</a>", "<a><![CDATA[open</a>", "<!DOCTYPE a><a/>",
-          "<a></a ", "<1a/>", "<a b=\"1\" b2/>", "<?xml version=\"1.0\"?><?pi?><a/>",
-          "<a><b></a></b>",
+          "<a><!-- open</a>", "<a><![CDATA[open</a>", "<!DOCTYPE a><a/>", "<a></a ", "<1a/>",
+          "<a b=\"1\" b2/>", "<?xml version=\"1.0\"?><?pi?><a/>", "<a><b></a></b>",
           // JUCE's reader loops for good on these (an instruction inside an element that
           // text follows), so plainness must refuse them:
           "<a><?x?>text</a>", "<a> <?x?> &amp;</a>",
@@ -190,7 +189,11 @@ TEST_CASE("plain xml: text JUCE writes passes at its own depth", "[xml]")
     for (int depth : {1, 2, 3, 10, 256})
     {
         juce::XmlElement root("root");
-        root.setAttribute("note", "a > b, c/> d, </e> & \"f\" 'g' \xc3\xa9");
+        // With a control character and a noncharacter (U+FFFE), which JUCE writes as
+        // character references (a fuzzed state carried one: it restored, then its saved
+        // copy did not, until such references were allowed).
+        root.setAttribute("note", juce::String::fromUTF8("a > b, c/> d, </e> & \"f\" 'g' "
+                                                         "\xc3\xa9 \x01 \xef\xbf\xbe"));
         auto* at = &root;
         for (int i = 1; i < depth; ++i)
         {
@@ -199,9 +202,12 @@ TEST_CASE("plain xml: text JUCE writes passes at its own depth", "[xml]")
             at = at->createNewChildElement("level");
         }
         const auto text = root.toString().toStdString();
+        REQUIRE(text.find("&#1;") != std::string::npos);
+        REQUIRE(text.find("&#65534;") != std::string::npos);
         INFO(depth);
+        INFO(text);
         int got = 0;
-        CHECK(plainXmlProblem(text.data(), text.size(), kMaxXmlNesting, &got).empty());
+        CHECK(plainXmlProblem(text.data(), text.size(), kMaxXmlNesting, &got) == "");
         CHECK(got == depth);
         CHECK(juceDepth(text) == depth);
     }
