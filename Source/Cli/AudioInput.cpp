@@ -58,15 +58,20 @@ ChunkWalk walkChunks(juce::InputStream& in)
         const juce::int64 end = declared == 0 || declared == 0xffffffffu
                                     ? total
                                     : std::min(total, 8 + static_cast<juce::int64>(declared));
-        for (juce::int64 pos = 12; (wav || aiff) && pos + 8 <= end;)
+        // JUCE reads a chunk whose header starts before that end, even where the header
+        // runs past it (a fuzzed AIFF's FORM ended inside the header of a 'cate' chunk).
+        for (juce::int64 pos = 12; (wav || aiff) && pos < end;)
         {
             unsigned char h[8] = {};
-            if (!in.setPosition(pos) || in.read(h, 8) != 8)
-                break;
+            const int got = in.setPosition(pos) ? in.read(h, 8) : 0;
+            if (got < 4)
+                break; // no whole id: JUCE reads none
             const bool audio = wav ? is(h, "fmt ") || is(h, "data") || is(h, "ds64")
                                    : is(h, "COMM") || is(h, "SSND") || is(h, "FVER");
             if (!audio)
                 walk.metadata.push_back(pos);
+            if (got < 8)
+                break; // no size: the file ends here
             const juce::uint32 size = wav ? juce::ByteOrder::littleEndianInt(h + 4)
                                           : juce::ByteOrder::bigEndianInt(h + 4);
             const juce::int64 left = total - pos - 8;
