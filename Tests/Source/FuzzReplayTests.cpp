@@ -12,6 +12,8 @@
 
 #include <cmath>
 #include <cstring>
+#include <initializer_list>
+#include <utility>
 
 using namespace kerf;
 
@@ -429,18 +431,20 @@ TEST_CASE("audio input: metadata chunks are hidden from JUCE's readers, the audi
 
     // WAV with two labels, a note and a region.
     juce::StringPairArray wavMeta;
-    wavMeta.set("NumCueLabels", "2");
-    wavMeta.set("CueLabel0Identifier", "1");
-    wavMeta.set("CueLabel0Text", "take 2 starts");
-    wavMeta.set("CueLabel1Identifier", "2");
-    wavMeta.set("CueLabel1Text", "door slam");
-    wavMeta.set("NumCueNotes", "1");
-    wavMeta.set("CueNote0Identifier", "1");
-    wavMeta.set("CueNote0Text", "host mic");
-    wavMeta.set("NumCueRegions", "1");
-    wavMeta.set("CueRegion0Identifier", "2");
-    wavMeta.set("CueRegion0SampleLength", "64");
-    wavMeta.set("CueRegion0Text", "breath");
+    for (const auto& [key, value] : std::initializer_list<std::pair<const char*, const char*>>{
+             {"NumCueLabels", "2"},
+             {"CueLabel0Identifier", "1"},
+             {"CueLabel0Text", "take 2 starts"},
+             {"CueLabel1Identifier", "2"},
+             {"CueLabel1Text", "door slam"},
+             {"NumCueNotes", "1"},
+             {"CueNote0Identifier", "1"},
+             {"CueNote0Text", "host mic"},
+             {"NumCueRegions", "1"},
+             {"CueRegion0Identifier", "2"},
+             {"CueRegion0SampleLength", "64"},
+             {"CueRegion0Text", "breath"}})
+        wavMeta.set(key, value);
     juce::WavAudioFormat wavFormat;
     const auto wav = write(wavFormat, wavMeta);
     REQUIRE(find(wav, "adtl") > 0);

@@ -1,7 +1,8 @@
 // A saved state reaches JUCE 7.0.5's XML reader only as plain XML (Source/StrictXml.h): the
-// reader recurses once per level of nesting and loops for good on some lenient texts. The
-// check is compared with JUCE's own reader (a general-purpose library) on what it accepts,
-// and with XML 1.0 (W3C Recommendation, 5th edition, 2008) on what it refuses.
+// reader recurses once per level of nesting and loops for good on some lenient texts.
+// Source: the check is compared with JUCE's own reader (a general-purpose library) on what
+// it accepts, and with XML 1.0 (W3C Recommendation, 5th edition, 2008; section numbers
+// below from memory) on what it refuses.
 #include "Parameters.h"
 #include "PluginProcessor.h"
 #include "StrictXml.h"
@@ -261,7 +262,8 @@ TEST_CASE("plugin: a saved state whose XML is not plain is refused", "[plugin][x
 TEST_CASE("standalone: a settings file whose XML is not plain is set aside", "[xml]")
 {
     // JUCE's PropertiesFile reads the standalone app's settings at every start with the same
-    // lenient reader: a damaged file would hang or crash every start.
+    // lenient reader: a damaged file would hang or crash every start. Setting a damaged
+    // settings file aside and starting fresh is common practice.
     juce::ScopedJuceInitialiser_GUI init;
     const auto dir = juce::File::getSpecialLocation(juce::File::tempDirectory)
                          .getNonexistentChildFile("kerf-settings-test", "", false);
