@@ -159,20 +159,21 @@ bool CombStage::canSweepTo(const CombSettings& next) const noexcept
            a.mode == n.mode && a.gain == n.gain && a.dampingHz == n.dampingHz && a.mix == n.mix;
 }
 
-void CombStage::sweepAt(long long k, double& logDelay, double& slope) const noexcept
+void CombStage::sweepAt(long long k, double& logDelay, double* slope) const noexcept
 {
     const double len = static_cast<double>(sweepLen_);
     const double t = static_cast<double>(k) / len;
     logDelay = sweepFrom_ + sweepSpan_ * transitionCurve(t) + sweepBend_ * bendCurve(t);
-    slope = (sweepSpan_ * transitionSlope(t) + sweepBend_ * bendSlope(t)) / len;
+    if (slope != nullptr) // only where a sweep is taken over, not per sample
+        *slope = (sweepSpan_ * transitionSlope(t) + sweepBend_ * bendSlope(t)) / len;
 }
 
 double CombStage::lineDelayNow() const noexcept
 {
     if (!sweeping())
         return lineDelay_;
-    double u = 0.0, du = 0.0;
-    sweepAt(sweepPos_, u, du);
+    double u = 0.0;
+    sweepAt(sweepPos_, u);
     return std::clamp(std::exp(u), sweepMin_, sweepMax_);
 }
 
@@ -186,7 +187,7 @@ void CombStage::sweepTo(const CombSettings& next, int lengthSamples) noexcept
     // Where the delay is and how fast its log moves (per sample).
     double from = 0.0, slope = 0.0;
     if (sweeping())
-        sweepAt(sweepPos_, from, slope);
+        sweepAt(sweepPos_, from, &slope);
     else
         from = std::log(lineDelay_);
     settings_ = clampCombSettings(next, sampleRateHz_);
@@ -254,8 +255,8 @@ void CombStage::processAny(Sample* const* channels, int numChannels, int n) noex
     // A sweep moves the delay sample by sample, the same for every channel.
     for (; i < n && sweeping(); ++i)
     {
-        double u = 0.0, du = 0.0;
-        sweepAt(sweepPos_, u, du);
+        double u = 0.0;
+        sweepAt(sweepPos_, u);
         useLineDelay(std::clamp(std::exp(u), sweepMin_, sweepMax_));
         for (int c = 0; c < nc; ++c)
             channels[c][i] =

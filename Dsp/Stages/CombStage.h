@@ -107,8 +107,8 @@ private:
     template <typename Sample>
     void processAny(Sample* const* channels, int numChannels, int n) noexcept;
     void useLineDelay(double delaySamples) noexcept;
-    /// Log delay and its slope per sample at sample k of the running sweep.
-    void sweepAt(long long k, double& logDelay, double& slope) const noexcept;
+    /// Log delay at sample k of the running sweep, and (if asked) its slope per sample.
+    void sweepAt(long long k, double& logDelay, double* slope = nullptr) const noexcept;
 
     CombSettings settings_{};
     double sampleRateHz_ = 48000.0;
