@@ -29,6 +29,12 @@ PAIRS = [
      "the same at the default 20 ms glides (knots every 32 samples) / static (bar <= 1.5)"),
     ("BM_Static24Bilinear", "BM_Gliding24BilinearEvery1Glide20",
      "bilinear designs at the default 20 ms glides / static (bar <= 1.5)"),
+    # The plugin's whole processBlock (parameters read in the block, the chain, output
+    # gain and protection); the bar is on the chain itself (above).
+    ("BM_PluginStatic24", "BM_PluginGliding24Every2",
+     "plugin block, every section parameter automated every 2 blocks / still (no bar)"),
+    ("BM_PluginStatic24", "BM_PluginGliding24Every1Glide20",
+     "plugin block, automated every block at 20 ms glides / still (no bar)"),
     # Denormals: the slowest second of 60 s of silence after loud input / of loud input.
     ("BM_RingingLoud/manual_time", "BM_RingingSilence60s/manual_time",
      "feedback comb at its highest gain, slowest second of 60 s silence / loud (bar <= 1.2)"),
