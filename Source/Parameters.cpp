@@ -349,6 +349,15 @@ ParameterRefs::ParameterRefs(juce::AudioProcessorValueTreeState& state)
         echoDelayMs[static_cast<std::size_t>(k)] = state.getRawParameterValue(ids::echoDelay(k));
         echoGain[static_cast<std::size_t>(k)] = state.getRawParameterValue(ids::echoGain(k));
     }
+    for (auto* p : state.processor.getParameters())
+        if (auto* ranged = dynamic_cast<juce::RangedAudioParameter*>(p))
+            all.push_back(state.getRawParameterValue(ranged->paramID));
+}
+
+void ParameterRefs::readAll(float* out) const noexcept
+{
+    for (std::size_t i = 0; i < all.size(); ++i)
+        out[i] = all[i]->load(std::memory_order_relaxed);
 }
 
 namespace

@@ -5,6 +5,7 @@
 #include <juce_audio_processors/juce_audio_processors.h>
 
 #include <array>
+#include <vector>
 
 namespace kerf
 {
@@ -107,7 +108,15 @@ struct ParameterRefs
     };
     std::array<Comb, kNumCombSlots> combs{};
 
+    /// Every parameter of the processor (readChain's inputs among them), in its order.
+    std::vector<std::atomic<float>*> all;
+
     explicit ParameterRefs(juce::AudioProcessorValueTreeState& state);
+
+    /// Copies every parameter's value (`all`, in order) to out[0 .. all.size()), so that
+    /// the audio thread can tell whether the chain may have changed since it last read it
+    /// by a comparison instead of a new snapshot. No allocation.
+    void readAll(float* out) const noexcept;
 
     /// Snapshot of the chain the parameters describe: stage 0 is the echo canceller (off
     /// unless echo_on and a reflection has a gain), stages 1..24 the section slots, 25..26 the

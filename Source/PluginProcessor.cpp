@@ -6,6 +6,8 @@
 #include "Response/SystemFunction.h"
 #include "StrictXml.h"
 
+#include <bit>
+#include <cstdint>
 #include <cstring>
 
 namespace kerf
@@ -91,7 +93,8 @@ KerfProcessor::KerfProcessor()
     : AudioProcessor(BusesProperties()
                          .withInput("Input", juce::AudioChannelSet::stereo(), true)
                          .withOutput("Output", juce::AudioChannelSet::stereo(), true)),
-      parameters(*this, nullptr, kStateTag, createParameterLayout()), refs(parameters)
+      parameters(*this, nullptr, kStateTag, createParameterLayout()), refs(parameters),
+      readValues(refs.all.size(), 0.0f)
 {
     // The host's bypass switch is no edit of the settings: not in undo, A/B or presets.
     edits.ignore(parameters.getParameter(ids::bypass)->getParameterIndex());
@@ -109,6 +112,7 @@ void KerfProcessor::prepareToPlay(double sampleRate, int samplesPerBlock)
 {
     chain.prepare(sampleRate, samplesPerBlock, juce::jmax(getTotalNumOutputChannels(), 1));
     capture.prepare(sampleRate);
+    refs.readAll(readValues.data());
     refs.readChain(snapshot);
     chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
     chain.setChain(snapshot);
@@ -184,23 +188,35 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
         }
 
     // Hosts here give no sample offsets for parameter changes (JUCE 7.0.5's wrappers apply
-    // them at block start), so the parameters are read again every kUpdateIntervalSamples
-    // samples of the block: a change takes effect within that many samples, and the chain
-    // glides or crossfades to it (Dsp/Smoothing). Preset loads and state restores arrive as
-    // parameter changes and move the same way.
+    // them at block start), so the parameters are looked at again every
+    // kUpdateIntervalSamples samples of the block: a change takes effect within that many
+    // samples, and the chain glides or crossfades to it (Dsp/Smoothing). Preset loads and
+    // state restores arrive as parameter changes and move the same way. The chain is read
+    // and handed over only where a value changed (reading it and comparing every stage at
+    // every point took 40 % of a still block), and the samples between changes run as
+    // one piece: the chain's output does not depend on how its input is split.
     chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
     Sample* const* io = buffer.getArrayOfWritePointers();
-    Sample* piece[dsp::ChainProcessor::kMaxChannels];
     const int pieceChannels = juce::jmin(numChannels, dsp::ChainProcessor::kMaxChannels);
+    auto run = [&](int from, int to)
+    {
+        Sample* piece[dsp::ChainProcessor::kMaxChannels];
+        for (int ch = 0; ch < pieceChannels; ++ch)
+            piece[ch] = io[ch] + from;
+        chain.process(piece, pieceChannels, to - from);
+    };
+    int from = 0;
     for (int start = 0; start < numSamples; start += dsp::kUpdateIntervalSamples)
     {
-        const int len = juce::jmin(dsp::kUpdateIntervalSamples, numSamples - start);
-        for (int ch = 0; ch < pieceChannels; ++ch)
-            piece[ch] = io[ch] + start;
+        if (!parametersMoved())
+            continue;
+        if (start > from)
+            run(from, start);
+        from = start;
         refs.readChain(snapshot);
         chain.setChain(snapshot);
-        chain.process(piece, pieceChannels, len);
     }
+    run(from, numSamples);
 
     // Output gain ramps across the block so that a change does not click.
     const double target =
@@ -229,6 +245,22 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
         if (fed < numSamples) // only before prepareToPlay: nothing to copy into
             analyzerQueue.countDropped(numSamples - fed);
     }
+}
+
+bool KerfProcessor::parametersMoved() noexcept
+{
+    // Every value against the one the snapshot was read after, bit for bit, in one pass
+    // without branches; only on a difference are they copied (before the chain is read, so
+    // a change that lands in between is seen at the next point).
+    std::uint32_t differ = 0;
+    const auto& all = refs.all;
+    for (std::size_t i = 0; i < all.size(); ++i)
+        differ |= std::bit_cast<std::uint32_t>(all[i]->load(std::memory_order_relaxed)) ^
+                  std::bit_cast<std::uint32_t>(readValues[i]);
+    if (differ == 0)
+        return false;
+    refs.readAll(readValues.data());
+    return true;
 }
 
 template <typename Sample>

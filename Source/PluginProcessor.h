@@ -182,6 +182,10 @@ private:
     dsp::ChainProcessor chain;
     std::atomic<unsigned> nonFiniteBlocks{0};
     dsp::ChainSpec snapshot; // reused every block: no allocation
+    // Every parameter's value (ParameterRefs::all) as read just before `snapshot` was
+    // (sized at construction).
+    std::vector<float> readValues;
+    bool parametersMoved() noexcept;
     dsp::OutputProtection protection;
     EchoCapture capture;
     double lastOutputGain = 1.0;
