@@ -103,9 +103,9 @@ public:
 private:
     struct Bar : juce::ScrollBar, juce::SettableTooltipClient
     {
-        explicit Bar(bool vertical) : juce::ScrollBar(vertical)
+        explicit Bar(bool upright) : juce::ScrollBar(upright)
         {
-            setTitle(vertical ? "Stage list, vertical scroll" : "Stage list, horizontal scroll");
+            setTitle(upright ? "Stage list, vertical scroll" : "Stage list, horizontal scroll");
             setTooltip("Scrolls the stage list (the mouse wheel scrolls it too)");
         }
     };
