@@ -842,6 +842,7 @@ struct StretchSection
     double* coeffs; // still: a1, a2, g, c0, c1, c2 as pairs; gliding: the cubic (4 x 8)
     double* state;  // ic1, ic2 pairs
     double n0;      // gliding: samples since the cubic's start at the block's first sample
+    bool moving;    // gliding: whether this section's cubic moves (else a constant)
 };
 
 /// One section step of the stereo kernel (Simper 2013, output mix folded):
@@ -942,7 +943,8 @@ void stretchKernelCubic(const StretchSection* sections, int count, double* l, do
 /// arithmetic, so a section's output does not depend on which of the two runs it.
 template <bool Moving>
 __attribute__((target("avx,fma"), always_inline)) inline void
-pairKernelBody(GlidePair* w, int pairs, double* l, double* r, int len) noexcept
+pairKernelBody(GlidePair* w, const unsigned char* pairMoves, int pairs, double* l, double* r,
+               int len) noexcept
 {
     // y[p + 1]: the last outputs of pair p, lanes as the pair's; y[0] holds the next input
     // sample in the lanes of a section "-1" (1 and 3). Pair p's input is lane 1 and 3 of
@@ -966,7 +968,10 @@ pairKernelBody(GlidePair* w, int pairs, double* l, double* r, int len) noexcept
         {
             GlidePair& g = w[p];
             __m256d grp[3];
-            if constexpr (Moving)
+            // A pair whose two sections both hold still (the rest of a stretch where some
+            // glide) reads its values as the still kernel does: its cubics are constants, and
+            // Horner steps with zero terms would give the same values.
+            if (Moving && pairMoves[p] != 0)
             {
                 const __m256d nv = _mm256_add_pd(tv, _mm256_load_pd(g.at));
                 for (int k = 0; k < 3; ++k)
@@ -1017,16 +1022,18 @@ pairKernelBody(GlidePair* w, int pairs, double* l, double* r, int len) noexcept
     }
 }
 
-__attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w, int pairs, double* l,
-                                                           double* r, int len) noexcept
+__attribute__((target("avx,fma"))) void pairCubicKernelFma(GlidePair* w,
+                                                           const unsigned char* pairMoves,
+                                                           int pairs, double* l, double* r,
+                                                           int len) noexcept
 {
-    pairKernelBody<true>(w, pairs, l, r, len);
+    pairKernelBody<true>(w, pairMoves, pairs, l, r, len);
 }
 
 __attribute__((target("avx,fma"))) void pairStillKernelFma(GlidePair* w, int pairs, double* l,
                                                            double* r, int len) noexcept
 {
-    pairKernelBody<false>(w, pairs, l, r, len);
+    pairKernelBody<false>(w, nullptr, pairs, l, r, len);
 }
 #endif
 #undef KERF_STRETCH_BODY
@@ -1066,6 +1073,7 @@ void ChainProcessor::runSectionPairs(const void* sectionList, int count, double*
     const auto* list = static_cast<const StretchSection*>(sectionList);
     const int pairs = (count + 1) / 2;
     auto* w = reinterpret_cast<GlidePair*>(glidePairs.data());
+    unsigned char pairMoves[kMaxSections / 2 + 1];
     // Past the stretch's end, an identity section: y = v0 exactly.
     alignas(32) static constexpr double identity[32] = {0.0, 0.0, 0.0, 1.0};
     alignas(16) static constexpr double rest[4] = {0.0, 0.0, 0.0, 0.0};
@@ -1076,9 +1084,11 @@ void ChainProcessor::runSectionPairs(const void* sectionList, int count, double*
         const bool second = j + 1 < count;
         const double* a = list[j].coeffs;
         const double* b = second ? list[j + 1].coeffs : identity;
-        // Group G of power o: {c_2G of j, of j + 1, c_2G+1 of j, of j + 1}.
+        pairMoves[p] = moving && (list[j].moving || (second && list[j + 1].moving)) ? 1 : 0;
+        // Group G of power o: {c_2G of j, of j + 1, c_2G+1 of j, of j + 1}; a pair that
+        // holds still needs power 0 only.
         if (moving)
-            for (int o = 0; o < 4; ++o)
+            for (int o = 0; o < (pairMoves[p] != 0 ? 4 : 1); ++o)
                 for (int grp = 0; grp < 3; ++grp)
                 {
                     const __m128d x = _mm_load_pd(a + 8 * o + 2 * grp);
@@ -1112,7 +1122,7 @@ void ChainProcessor::runSectionPairs(const void* sectionList, int count, double*
         _mm_store_pd(g.s2 + 2, _mm_unpackhi_pd(a2, b2));
     }
     if (moving)
-        pairCubicKernelFma(w, pairs, l, r, len);
+        pairCubicKernelFma(w, pairMoves, pairs, l, r, len);
     else
         pairStillKernelFma(w, pairs, l, r, len);
     for (int p = 0; p < pairs; ++p)
@@ -1149,7 +1159,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
         {
             const auto u = static_cast<std::size_t>(j);
             list[static_cast<std::size_t>(count++)] = {
-                pairCoeffs[u].a1, pairState[static_cast<std::size_t>(pair)][u].ic1, 0.0};
+                pairCoeffs[u].a1, pairState[static_cast<std::size_t>(pair)][u].ic1, 0.0, false};
             ramp = ramp || ramping[u];
         }
     }
@@ -1168,6 +1178,7 @@ void ChainProcessor::runStereoStretch(int first, int end, double* l, double* r, 
                 auto& item = list[static_cast<std::size_t>(k)];
                 item.coeffs = rampCubic[static_cast<std::size_t>(j)].c[0].v;
                 item.n0 = static_cast<double>(clock - rampOrigin[static_cast<std::size_t>(j)]);
+                item.moving = ramping[static_cast<std::size_t>(j)];
             }
         }
     }
