@@ -4,6 +4,7 @@
 // automated, measured in the same run (scripts/bench prints the ratios of medians). The host
 // side of automation (setValueNotifyingHost, which JUCE's VST3 wrapper calls on the audio
 // thread before each block) is timed with it. On demand, never a timed unit test.
+#include "BenchChain.h"
 #include "Parameters.h"
 #include "PluginProcessor.h"
 
@@ -19,26 +20,7 @@ namespace
 using namespace kerf;
 constexpr double kRate = 48000.0;
 constexpr int kBlock = 512;
-constexpr int kSections = 24;
-
-/// The chain of kerf_smoothing_bench (synthetic settings): 24 peaking sections spread over
-/// the band; `phase` moves every frequency, gain and Q within glide range.
-dsp::ChainSpec chain(dsp::DesignMode mode, int phase)
-{
-    dsp::ChainSpec c;
-    const double m = phase == 0 ? 0.0 : (phase % 2 ? 1.0 : -1.0);
-    for (int i = 0; i < kSections; ++i)
-    {
-        dsp::StageSpec s;
-        s.type = dsp::StageType::peaking;
-        s.freqHz = 40.0 * std::pow(400.0, i / double(kSections - 1)) * std::pow(2.0, 0.2 * m);
-        s.gainDb = (i % 2 ? -1.0 : 1.0) * (3.0 + i % 5) + 2.0 * m;
-        s.q = (0.7 + 0.3 * (i % 4)) * std::pow(1.3, 0.5 * m);
-        s.design = mode;
-        c.push(s);
-    }
-    return c;
-}
+constexpr int kSections = bench::kBenchSections;
 
 /// One host automation step: the normalised values of every section's frequency, gain and
 /// Q for a chain, set as JUCE's VST3 wrapper sets them (setValueNotifyingHost).
@@ -57,7 +39,7 @@ Targets targetsFor(KerfProcessor& p, dsp::DesignMode mode)
             t.params.push_back(apvts.getParameter(id));
     for (int k = 0; k < 2; ++k)
     {
-        const auto c = chain(mode, k + 1);
+        const auto c = bench::benchChain(mode, k + 1);
         for (int i = 0; i < kSections; ++i)
         {
             const auto& s = c.stages[static_cast<std::size_t>(i)];
@@ -77,7 +59,7 @@ void run(benchmark::State& state, dsp::DesignMode mode, int everyBlocks, float g
 {
     juce::ScopedJuceInitialiser_GUI init;
     auto p = std::make_unique<KerfProcessor>();
-    p->importChain(chain(mode, 0));
+    p->importChain(bench::benchChain(mode, 0));
     auto* glide = p->state().getParameter(ids::glideMs);
     glide->setValueNotifyingHost(glide->convertTo0to1(glideMs));
     p->setPlayConfigDetails(2, 2, kRate, kBlock);

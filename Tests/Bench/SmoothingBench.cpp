@@ -1,6 +1,7 @@
 // Cost of the click-free layer: 24 stereo peaking sections in 512-sample blocks, static
 // against every parameter gliding, measured in the same run (scripts/bench prints the
 // ratio of medians; issue bar: gliding <= 1.5x static). Never a timed unit test.
+#include "BenchChain.h"
 #include "Chain.h"
 
 #include <benchmark/benchmark.h>
@@ -14,26 +15,12 @@ namespace
 using namespace kerf::dsp;
 constexpr double kRate = 48000.0;
 constexpr int kBlock = 512;
-constexpr int kSections = 24;
+constexpr int kSections = kerf::bench::kBenchSections;
 
-/// 24 peaking sections spread over the band (synthetic settings); `phase` moves the
-/// frequency, gain and Q of the first `moving` sections within glide range (0.4 octave,
-/// 4 dB, Q x1.3).
+/// The benchmarks' chain (BenchChain.h).
 ChainSpec chain(DesignMode mode, int phase, int moving = kSections)
 {
-    ChainSpec c;
-    for (int i = 0; i < kSections; ++i)
-    {
-        const double m = i >= moving ? 0.0 : phase % 2 ? 1.0 : -1.0;
-        StageSpec s;
-        s.type = StageType::peaking;
-        s.freqHz = 40.0 * std::pow(400.0, i / double(kSections - 1)) * std::pow(2.0, 0.2 * m);
-        s.gainDb = (i % 2 ? -1.0 : 1.0) * (3.0 + i % 5) + 2.0 * m;
-        s.q = (0.7 + 0.3 * (i % 4)) * std::pow(1.3, 0.5 * m);
-        s.design = mode;
-        c.push(s);
-    }
-    return c;
+    return kerf::bench::benchChain(mode, phase, moving);
 }
 
 void fillNoise(std::vector<double>& l, std::vector<double>& r)
@@ -58,7 +45,7 @@ void run(benchmark::State& state, DesignMode mode, int everyBlocks, double glide
     // target arrives, so every section glides all the time. Glides of 20 ms (the default)
     // are timed with new targets every block, which they never outlast.
     p.setGlideMs(glideMs);
-    p.setChain(chain(mode, 0));
+    p.setChain(chain(mode, 0, moving));
     std::vector<double> l(kBlock), r(kBlock);
     fillNoise(l, r);
     double* ch[2] = {l.data(), r.data()};
