@@ -59,7 +59,11 @@ void run(benchmark::State& state, dsp::DesignMode mode, int everyBlocks, float g
 {
     juce::ScopedJuceInitialiser_GUI init;
     auto p = std::make_unique<KerfProcessor>();
-    p->importChain(bench::benchChain(mode, 0));
+    if (const auto error = p->importChain(bench::benchChain(mode, 0)); error.isNotEmpty())
+    {
+        state.SkipWithError(error.toRawUTF8());
+        return;
+    }
     auto* glide = p->state().getParameter(ids::glideMs);
     glide->setValueNotifyingHost(glide->convertTo0to1(glideMs));
     p->setPlayConfigDetails(2, 2, kRate, kBlock);
