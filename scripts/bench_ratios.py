@@ -31,6 +31,8 @@ PAIRS = [
      "bilinear designs at the default 20 ms glides / static (bar <= 1.5)"),
     ("BM_Static24Accurate", "BM_OneOf24GlidingAccurateEvery2",
      "one section of the 24 gliding (the usual automation) / static (no bar)"),
+    ("BM_Static24Accurate", "BM_OneOf24GlidingAccurateEvery1Glide20",
+     "the same at the default 20 ms glides, new targets every block / static (no bar)"),
     # The plugin's whole processBlock (parameters read in the block, the chain, output
     # gain and protection); the bar is on the chain itself (above).
     ("BM_PluginStatic24", "BM_PluginGliding24Every2",

@@ -119,7 +119,12 @@ BENCHMARK(BM_Gliding24BilinearEvery2);
 BENCHMARK(BM_Gliding24BilinearEvery1);
 BENCHMARK(BM_Gliding24AccurateEvery1Glide20);
 BENCHMARK(BM_Gliding24BilinearEvery1Glide20);
+void BM_OneOf24GlidingAccurateEvery1Glide20(benchmark::State& s)
+{
+    run(s, DesignMode::accurate, 1, 20.0, 1);
+}
 BENCHMARK(BM_OneOf24GlidingAccurateEvery2);
+BENCHMARK(BM_OneOf24GlidingAccurateEvery1Glide20);
 } // namespace
 
 BENCHMARK_MAIN();
