@@ -668,7 +668,7 @@ TEST_CASE("parameters: read where they change, the same output for any host bloc
     std::vector<float> input(static_cast<std::size_t>(2 * n));
     for (auto& x : input)
         x = 0.25f * (u(rng) - 0.5f);
-    // What moves at each span: parameter index and normalised value, drawn once.
+    // What moves at each span: parameter ID and normalised value, one to six of them.
     KerfProcessor probe;
     const auto params = probe.getParameters();
     std::vector<juce::String> movable;
@@ -679,7 +679,7 @@ TEST_CASE("parameters: read where they change, the same output for any host bloc
                 movable.push_back(ranged->paramID);
     std::vector<std::vector<std::pair<juce::String, float>>> moves(spans);
     for (int k = 1; k < spans; ++k)
-        for (int m = 0; m < 1 + static_cast<int>(u(rng) * 6.0f); ++m)
+        for (int m = 0, count = 1 + static_cast<int>(u(rng) * 6.0f); m < count; ++m)
             moves[static_cast<std::size_t>(k)].emplace_back(
                 movable[static_cast<std::size_t>(u(rng) * static_cast<float>(movable.size() - 1))],
                 u(rng));
