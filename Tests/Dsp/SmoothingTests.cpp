@@ -943,8 +943,11 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
     // tested, so every render gives the changes at the same sample times.
     const int changeEvery = 2 * 3 * 5 * 7 * 32; // 6720
     // At the default glide time the knots come every 32 samples; 200 ms glides put them 128
-    // apart and take new targets between knots, in the middle of a glide.
+    // apart and take new targets between knots, in the middle of a glide. With `glidesOnly`
+    // two stages in the middle glide and the rest hold still (no crossfade runs, so updates
+    // come only at the glides' knots).
     double glideMs = kDefaultGlideMs;
+    bool glidesOnly = false;
     auto render = [&](int block)
     {
         std::mt19937 rng(seed);
@@ -955,6 +958,8 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
         for (int i = 0; i < 6; ++i)
             c.push(randomSection(rng, 0.8));
         c.push(randomDelayStage(rng, false));
+        if (glidesOnly)
+            c.stages[1].enabled = c.stages[4].enabled = true;
         p.setChain(c);
         auto l = l0, r = r0;
         for (int start = 0; start < n; start += block)
@@ -964,12 +969,18 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
                 for (int i = 0; i < 6; ++i)
                 {
                     StageSpec& s = c.stages[static_cast<std::size_t>(i)];
-                    if (i % 2 == 0 && s.enabled)
+                    if (glidesOnly)
+                    {
+                        if (i == 1 || i == 4)
+                            s.freqHz = s.freqHz < 10000.0 ? s.freqHz * 1.5 : s.freqHz / 1.5;
+                    }
+                    else if (i % 2 == 0 && s.enabled)
                         s.freqHz = std::min(s.freqHz * 1.5, 20000.0); // glides
                     else
                         s = randomSection(rng, 0.8); // crossfades
                 }
-                c.stages[6] = randomDelayStage(rng, false);
+                if (!glidesOnly)
+                    c.stages[6] = randomDelayStage(rng, false);
                 p.setChain(c);
             }
             double* ch[2] = {l.data() + start, r.data() + start};
@@ -977,13 +988,15 @@ TEST_CASE("smoothing: output does not depend on block size while settings move",
         }
         return std::make_pair(l, r);
     };
-    for (const double ms : {kDefaultGlideMs, 200.0})
+    for (const auto& [ms, only] : {std::pair{kDefaultGlideMs, false}, std::pair{200.0, false},
+                                   std::pair{kDefaultGlideMs, true}, std::pair{200.0, true}})
     {
         glideMs = ms;
+        glidesOnly = only;
         const auto whole = render(6720);
         for (int block : {1, 2, 3, 5, 7, 32, 64, 70, 105, 210, 224, 960})
         {
-            INFO("glide time " << ms << " ms, block " << block);
+            INFO("glide time " << ms << " ms, block " << block << (only ? ", glides only" : ""));
             const auto pieces = render(block);
             bool same = true;
             for (int i = 0; i < n; ++i)
