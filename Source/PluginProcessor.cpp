@@ -187,10 +187,11 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
                 dry[i] = static_cast<double>(in[i]);
         }
 
-    // Hosts here give no sample offsets for parameter changes (JUCE 7.0.5's wrappers apply
-    // them at block start), so the parameters are looked at again every
-    // kUpdateIntervalSamples samples of the block: a change takes effect within that many
-    // samples, and the chain glides or crossfades to it (Dsp/Smoothing). Preset loads and
+    // The parameters are looked at at the start of the call and again every
+    // kUpdateIntervalSamples samples: a change takes effect at the chain's next update
+    // point, and the chain glides or crossfades to it (Dsp/Smoothing). JUCE 7.0.5's
+    // wrappers apply host changes at block start; in the VST3 plugin, automation points
+    // inside a block arrive as calls that start where they lie (Vst3Automation.h). Preset loads and
     // state restores arrive as parameter changes and move the same way. The chain is read
     // and handed over only where a value changed (reading it and comparing every stage at
     // every point took 40 % of a still block), and the samples between changes run as
@@ -245,6 +246,16 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
         if (fed < numSamples) // only before prepareToPlay: nothing to copy into
             analyzerQueue.countDropped(numSamples - fed);
     }
+}
+
+int32_t KerfProcessor::queryIAudioProcessor(const Steinberg::TUID iid, void** obj)
+{
+    // Made at the first query the VST3 wrapper passes on, once its component is this
+    // processor's play head (it is from its construction on).
+    std::call_once(
+        automationSplitterMade, [this]
+        { automationSplitter = makeVst3AutomationSplitter(getPlayHead(), getParameters()); });
+    return queryVst3AutomationSplitter(automationSplitter.get(), iid, obj);
 }
 
 bool KerfProcessor::parametersMoved() noexcept

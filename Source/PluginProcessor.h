@@ -7,10 +7,12 @@
 #include "Parameters.h"
 #include "Stages/OutputProtection.h"
 #include "UserPresets.h"
+#include "Vst3Automation.h"
 
 #include <atomic>
 #include <juce_audio_processors/juce_audio_processors.h>
 
+#include <mutex>
 #include <optional>
 
 namespace kerf
@@ -27,7 +29,7 @@ enum class CompareSlot
 };
 
 /// Plugin, standalone and test host all run this processor.
-class KerfProcessor : public juce::AudioProcessor
+class KerfProcessor : public juce::AudioProcessor, public juce::VST3ClientExtensions
 {
 public:
     KerfProcessor();
@@ -162,6 +164,10 @@ public:
         return editorGeneration.load(std::memory_order_acquire);
     }
 
+    /// VST3: hands the host an IAudioProcessor that places automation points where the host
+    /// puts them inside a block (Vst3Automation.h).
+    int32_t queryIAudioProcessor(const Steinberg::TUID iid, void** obj) override;
+
     /// Why the last state restore fell back to defaults ("" when it did not); the reason is
     /// also written to juce::Logger (the host's log, or stderr).
     juce::String lastStateProblem() const { return stateProblem; }
@@ -188,6 +194,8 @@ private:
     bool parametersMoved() noexcept;
     dsp::OutputProtection protection;
     EchoCapture capture;
+    Vst3AutomationSplitterPtr automationSplitter; // made at the first VST3 query
+    std::once_flag automationSplitterMade;
     double lastOutputGain = 1.0;
     juce::AudioBuffer<double> dryCopy; // the input, for the bypass crossfade
     double wetAmount = 1.0;            // 1 = processed, 0 = bypassed (crossfade position)
