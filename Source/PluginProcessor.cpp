@@ -191,11 +191,12 @@ template <typename Sample> void KerfProcessor::processPiece(juce::AudioBuffer<Sa
     // kUpdateIntervalSamples samples: a change takes effect at the chain's next update
     // point, and the chain glides or crossfades to it (Dsp/Smoothing). JUCE 7.0.5's
     // wrappers apply host changes at block start; in the VST3 plugin, automation points
-    // inside a block arrive as calls that start where they lie (Vst3Automation.h). Preset loads and
-    // state restores arrive as parameter changes and move the same way. The chain is read
-    // and handed over only where a value changed (reading it and comparing every stage at
-    // every point took 40 % of a still block), and the samples between changes run as
-    // one piece: the chain's output does not depend on how its input is split.
+    // inside a block arrive as calls that start where they lie (Vst3Automation.h). Preset
+    // loads and state restores arrive as parameter changes and move the same way. The
+    // chain is read and handed over only where a value changed (reading it and comparing
+    // every stage at every point took 40 % of a still block), and the samples between
+    // changes run as one piece: the chain's output does not depend on how its input is
+    // split.
     chain.setGlideMs(static_cast<double>(refs.glideMs->load()));
     Sample* const* io = buffer.getArrayOfWritePointers();
     const int pieceChannels = juce::jmin(numChannels, dsp::ChainProcessor::kMaxChannels);
