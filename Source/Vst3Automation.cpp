@@ -1,18 +1,7 @@
 #include "Vst3Automation.h"
 
 #include "Smoothing/Transition.h"
-
-// The VST3 SDK's interfaces (shipped with JUCE), quiet under the project's warnings.
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wshadow"
-#pragma GCC diagnostic ignored "-Wpedantic"
-#pragma GCC diagnostic ignored "-Wzero-as-null-pointer-constant"
-#pragma GCC diagnostic ignored "-Wsign-conversion"
-#pragma GCC diagnostic ignored "-Wunused-parameter"
-#include <pluginterfaces/vst/ivstaudioprocessor.h>
-#include <pluginterfaces/vst/ivstcomponent.h>
-#include <pluginterfaces/vst/ivstparameterchanges.h>
-#pragma GCC diagnostic pop
+#include "Vst3Sdk.h"
 
 #include <algorithm>
 #include <array>

@@ -13,24 +13,12 @@
 //   (common practice: DAWs rely on it for recall).
 #include "../Dsp/AllocationHook.h"
 #include "ChainFile.h"
+#include "Vst3Sdk.h"
 
 #include <catch2/catch.hpp>
 #include <juce_audio_formats/juce_audio_formats.h>
 #include <juce_audio_processors/juce_audio_processors.h>
 #include <juce_events/juce_events.h>
-
-// The VST3 SDK's interfaces (shipped with JUCE), to drive the plugin's IAudioProcessor
-// with parameter queues as a VST3 host does.
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wshadow"
-#pragma GCC diagnostic ignored "-Wpedantic"
-#pragma GCC diagnostic ignored "-Wzero-as-null-pointer-constant"
-#pragma GCC diagnostic ignored "-Wsign-conversion"
-#pragma GCC diagnostic ignored "-Wunused-parameter"
-#include <pluginterfaces/vst/ivstaudioprocessor.h>
-#include <pluginterfaces/vst/ivstcomponent.h>
-#include <pluginterfaces/vst/ivstparameterchanges.h>
-#pragma GCC diagnostic pop
 
 #include <cmath>
 #include <random>
